@@ -1,0 +1,11 @@
+"""tracecoil: design, export, check and predict printed-circuit-board coils.
+
+The public API, re-exported from the modules that define it.
+"""
+
+__version__ = "0.1.0"
+
+from .design import BoardSpec, CoilSpec, Design, load_design
+from .errors import GeometryError, SpecError
+from .generators import build_coil, max_turns, spiral
+from .layout import Coil, Stackup, Step, Terminal, Trace, Via
