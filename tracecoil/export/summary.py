@@ -14,9 +14,12 @@ Definitions (for one winding, i.e. a trace with role 'winding'):
 * **outer_mm** (d_out): outside edge of the outermost turn: twice the
   largest distance from the centre to the line through a centreline
   segment, plus the width. For a polygon spiral this is the size across
-  flats at the copper's outside edge; for a circle, the diameter less a
-  little over twice the chord tolerance (chords lie inside the curve, and
-  the radius also shrinks along each chord).
+  flats at the copper's outside edge. For a curved spiral the line through
+  a short chord is nearly the tangent, whose distance from the centre is
+  r^2 / sqrt(r^2 + (dr/dtheta)^2) (the pedal of the curve), short of r by
+  about (pitch / 2 pi)^2 / (2 r); the chords also lie up to the chord
+  tolerance inside the curve. So a circle's d_out is its diameter less a
+  little over twice the chord tolerance.
 * **inner_mm** (d_in): inside edge of the innermost turn, taken where that
   turn is widest: twice the largest segment-line distance over the last
   full turn before the inner end, less the width. For n closed turns of
@@ -114,6 +117,14 @@ def _jsonable(x):
     return x
 
 
+def _copper_bounds(outlines) -> list | None:
+    """(xmin, ymin, xmax, ymax) of the copper of all layers (mm)."""
+    b = np.array([g.bounds for g in outlines.copper.values() if not g.is_empty])
+    if not len(b):
+        return None
+    return [b[:, 0].min(), b[:, 1].min(), b[:, 2].max(), b[:, 3].max()]
+
+
 def summary(coil: Coil, *, outlines=None) -> dict:
     """Geometry summary of ``coil`` (see the module docstring).
 
@@ -136,7 +147,8 @@ def summary(coil: Coil, *, outlines=None) -> dict:
         ``total_winding_length_mm``, ``turns_per_winding``, ``extra_turns``,
         ``outer_mm``, ``inner_mm``, ``fill_ratio``, ``via_count``,
         ``terminal_pad_count``, ``terminals`` ({'A': [x, y], ...}),
-        ``bounds_mm`` (copper xmin, ymin, xmax, ymax), ``board_bounds_mm``,
+        ``bounds_mm`` (xmin, ymin, xmax, ymax of the copper outlines of all
+        layers, including mitred corners and pads), ``board_bounds_mm``,
         ``tolerance_mm``, ``spec``.
 
     >>> from tracecoil import spiral
@@ -192,7 +204,7 @@ def summary(coil: Coil, *, outlines=None) -> dict:
         "via_count": sum(1 for v in coil.vias if v.role == "via"),
         "terminal_pad_count": sum(1 for v in coil.vias if v.role == "terminal"),
         "terminals": {t.name: [t.x_mm, t.y_mm] for t in coil.terminals},
-        "bounds_mm": list(coil.bounds_mm()),
+        "bounds_mm": _copper_bounds(outlines),
         "board_bounds_mm": None if outlines.board is None else list(outlines.board.bounds),
         "board_layers": coil.stackup.n_layers,
         "tolerance_mm": outlines.tolerance_mm,
