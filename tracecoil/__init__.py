@@ -7,5 +7,6 @@ __version__ = "0.1.0"
 
 from .design import BoardSpec, CoilSpec, Design, load_design
 from .errors import GeometryError, SpecError
+from .export import build, summary
 from .generators import build_coil, max_turns, spiral
 from .layout import Coil, Stackup, Step, Terminal, Trace, Via
