@@ -20,29 +20,34 @@ Skin depth
     delta = sqrt(rho / (pi f mu0 mu_r)) (J. D. Jackson, *Classical
     Electrodynamics*, 3rd ed., 1999, sec. 5.18, from memory).
 AC, closed form (``ac_resistance``)
-    Current density decaying as exp(-x / delta) inward from every face of
-    the rectangular section gives, across a thickness t fed from both faces,
-    an effective thickness t_eff = 2 delta (1 - exp(-t / (2 delta))); the
-    one-sided form delta (1 - exp(-t / delta)) is the one used by C. P. Yue
-    and S. S. Wong, "Physical modeling of spiral inductors on silicon",
-    IEEE Trans. Electron Devices 47(3), 2000 (from memory). Applying it to
-    both width and thickness, A_eff = w t - (w - w_eff)(t - t_eff): this
-    tends to w t at low frequency and to about delta times the perimeter at
-    high frequency, with a smooth transition (the two-direction extension is
-    common practice). It ignores current crowding at the strip edges and
-    the proximity effect of neighbouring turns, so in a dense winding it
-    *underestimates* R(f) once delta is smaller than the trace width
-    (typically by 20 % to a factor of 2 or more); the filament model of
-    ``tracecoil.physics.inductance.impedance`` includes both and is
-    preferred where available. Treat this closed form as a lower bound and a
-    cross-check.
+    Each trace is treated as a wide plate of thickness t whose two faces
+    see equal and opposite tangential field (an isolated strip). The exact
+    1-D diffusion solution, J ~ cosh(gamma x), gamma = (1 + j) / delta,
+    gives Z / R_dc = (gamma t / 2) coth(gamma t / 2), whose real part is
+    R / R_dc = D (sinh 2D + sin 2D) / (cosh 2D - cos 2D), D = t / (2 delta):
+    the skin-effect term of P. L. Dowell, "Effects of eddy currents in
+    transformer windings", Proc. IEE 113(8), 1966, for a half-thickness
+    fed from one face (from memory; the derivation is the plane-conductor
+    internal impedance of S. Ramo, J. R. Whinnery, T. Van Duzer, *Fields and
+    Waves in Communication Electronics*, 3rd ed., 1994). It tends to 1 at
+    low frequency and to t / (2 delta) (current in one skin depth under
+    each face) at high frequency. A via barrel is a wall of thickness p fed
+    from its outer face only (no field inside the hole): D = p / delta.
+    The model ignores the strip's edges (current crowding there raises R
+    further) and the proximity of neighbouring turns, so in a dense
+    winding it *underestimates* R(f) once delta is smaller than the trace
+    width (typically by 20 % to a factor of 2 or more); the filament model
+    of ``tracecoil.physics.inductance.impedance`` includes both and is
+    preferred where available. Treat this closed form as a lower bound and
+    a cross-check.
 
 Combining the path
 ------------------
 DC resistance is solved as a resistor network (Kirchhoff): nodes are the
-ends of the path's traces and the pads of its vias, joined where a trace
-end lies on a via pad of the same layer or on another trace end. This is
-exact for parallel branches of unequal resistance. The power-weighted sum
+ends of the path's traces and the pads of the vias, joined where a trace
+end lies on a via pad of the same layer or on another trace end; every via
+barrel joins its pads. This is exact for parallel branches of unequal
+resistance. The power-weighted sum
 over the path, R = sum_i f_i^2 R_i with ``Step.fraction`` f_i, equals it
 when the branch currents split as the fractions state (series coils and
 identical parallel layers) and is otherwise an upper bound (Thomson's
@@ -94,40 +99,49 @@ def skin_depth(resistivity_ohm_m, freq_hz, mu_r=1.0):
         return np.sqrt(rho / (np.pi * f * MU0 * np.asarray(mu_r, dtype=float)))
 
 
-def effective_thickness(thickness_m, skin_depth_m):
-    """Thickness carrying the current of a slab fed from both faces (m).
+def plate_ac_factor(thickness_m, skin_depth_m, *, faces=2):
+    """R_ac / R_dc of a plate carrying current along it (skin effect only).
 
-    t_eff = 2 delta (1 - exp(-t / (2 delta))): tends to t when delta >> t
-    and to 2 delta when delta << t. ``skin_depth_m`` may be ``inf`` (DC).
+    Exact 1-D solution: Re[z coth z] with z = (1 + j) t / (2 delta) for a
+    plate fed from both faces, z = (1 + j) t / delta from one face; see the
+    module docstring (Dowell 1966; Ramo, Whinnery & Van Duzer 1994; from
+    memory).
 
     Parameters
     ----------
     thickness_m, skin_depth_m : ndarray
-        Broadcast together (m).
+        Plate thickness and skin depth (m), broadcast; ``skin_depth_m``
+        may be inf (DC).
+    faces : {1, 2}
+        Faces the field (and current) enters from.
 
     Returns
     -------
     ndarray
-        Effective thickness (m).
+        Resistance ratio >= 1.
 
-    >>> round(float(effective_thickness(35e-6, np.inf)) * 1e6, 6)
-    35.0
+    >>> round(float(plate_ac_factor(70e-6, 35e-6)), 4)
+    1.0856
     """
+    if faces not in (1, 2):
+        raise SpecError(f"faces must be 1 or 2; got {faces!r}")
     t = np.asarray(thickness_m, dtype=float)
     d = np.asarray(skin_depth_m, dtype=float)
-    x = t / (2.0 * d)
-    # -expm1(-x) = 1 - exp(-x) without cancellation; x / x-limit at x -> 0.
-    with np.errstate(invalid="ignore", divide="ignore"):
-        out = np.where(x > 1e-12, 2.0 * d * -np.expm1(-x), t)
-    return out
+    x = t / (2.0 * d) if faces == 2 else t / d
+    z = (1.0 + 1.0j) * np.where(x > 1e-4, x, 1.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        big = x > 20.0  # coth(z) = 1 to double precision
+        ratio = np.where(big, z, z / np.tanh(np.where(big, 1.0, z)))
+    # Series 1 + 4 x^4 / 45 below x = 1e-4 (exact to double precision).
+    return np.where(x > 1e-4, ratio.real, 1.0 + 4.0 * x**4 / 45.0)
 
 
 def strip_resistance(length_m, width_m, thickness_m, resistivity_ohm_m, freq_hz=0.0):
     """Resistance of straight rectangular strips, DC or closed-form AC (ohm).
 
-    DC: rho l / (w t). AC: rho l / A_eff with A_eff = w t - (w - w_eff)(t -
-    t_eff), the effective widths from :func:`effective_thickness` (see the
-    module docstring for the model and its limits).
+    DC: rho l / (w t). AC: times :func:`plate_ac_factor` across the
+    thickness (both faces; see the module docstring for the model and its
+    limits).
 
     Parameters
     ----------
@@ -149,19 +163,18 @@ def strip_resistance(length_m, width_m, thickness_m, resistivity_ohm_m, freq_hz=
     w = np.asarray(width_m, dtype=float)
     t = np.asarray(thickness_m, dtype=float)
     rho = np.asarray(resistivity_ohm_m, dtype=float)
-    area = w * t
+    r = rho * np.asarray(length_m, dtype=float) / (w * t)
     if freq_hz > 0:
-        d = skin_depth(rho, freq_hz)
-        area = area - (w - effective_thickness(w, d)) * (t - effective_thickness(t, d))
-    return rho * np.asarray(length_m, dtype=float) / area
+        r = r * plate_ac_factor(t, skin_depth(rho, freq_hz), faces=2)
+    return r
 
 
 def barrel_resistance(length_m, drill_m, plating_m, resistivity_ohm_m, freq_hz=0.0):
     """Resistance of plated via barrels (ohm).
 
     An annulus of outer diameter ``drill_m`` and wall ``plating_m``:
-    R = rho l / (pi p_eff (d - p)), with p_eff = p at DC and the
-    effective wall of :func:`effective_thickness` at frequency.
+    R = rho l / (pi p (d - p)) at DC; at frequency times
+    :func:`plate_ac_factor` of the wall fed from its outer face.
 
     Parameters
     ----------
@@ -178,13 +191,15 @@ def barrel_resistance(length_m, drill_m, plating_m, resistivity_ohm_m, freq_hz=0
         Resistance (ohm).
 
     >>> round(float(barrel_resistance(1.6e-3, 0.3e-3, 25e-6, 1.7241e-8)) * 1e3, 3)
-    1.28
+    1.277
     """
     d = np.asarray(drill_m, dtype=float)
     p = np.asarray(plating_m, dtype=float)
     rho = np.asarray(resistivity_ohm_m, dtype=float)
-    p_eff = p if freq_hz <= 0 else effective_thickness(p, skin_depth(rho, freq_hz))
-    return rho * np.asarray(length_m, dtype=float) / (np.pi * p_eff * (d - p))
+    r = rho * np.asarray(length_m, dtype=float) / (np.pi * p * (d - p))
+    if freq_hz > 0:
+        r = r * plate_ac_factor(p, skin_depth(rho, freq_hz), faces=1)
+    return r
 
 
 def network_resistance(n_nodes, node_a, node_b, edge_i, edge_j, edge_ohm):
@@ -302,11 +317,13 @@ class PathElements:
 def path_elements(coil) -> PathElements:
     """Split the coil's current path into straight resistive elements.
 
-    Zero-length elements (a terminal pad entered and left on the same
-    layer) are dropped.
+    Zero-length elements are dropped, and so are barrels of terminal pads:
+    the pin or wire soldered through a terminal pad joins its layers, so
+    the current does not flow along that barrel.
     """
     rows = []
     st = coil.stackup
+    terminal_vias = {t.via for t in coil.terminals}
     for k, s in enumerate(coil.path):
         if s.kind == "trace":
             tr = coil.traces[s.index]
@@ -317,7 +334,7 @@ def path_elements(coil) -> PathElements:
                 rows.append(("trace", k, tr.layer, seg[i] * 1e-3, tr.width_mm * 1e-3, t_m, s.fraction, p[i], p[i + 1], tr.layer))
         elif s.kind == "via":
             v = coil.vias[s.index]
-            if s.from_layer == s.to_layer or not s.from_layer:
+            if s.from_layer == s.to_layer or not s.from_layer or s.index in terminal_vias:
                 continue
             length = abs(st.z_mm(s.from_layer) - st.z_mm(s.to_layer)) * 1e-3
             rows.append(("via", k, s.from_layer, length, v.drill_mm * 1e-3, st.plating_um * 1e-6, s.fraction, v.xy, v.xy, s.to_layer))
@@ -387,7 +404,8 @@ def dc_resistance(coil, *, temperature_c=20.0, method="network") -> float:
     r = element_resistances(e, temperature_c=temperature_c)
     if method == "path":
         return float(np.sum(e.fraction**2 * r))
-    return path_network(coil, e).solve(step_sums(e, r))[0]
+    net = path_network(coil, e)
+    return net.solve(network_edge_resistances(coil, net, e, r, temperature_c=temperature_c))[0]
 
 
 def ac_resistance(coil, freq_hz, *, temperature_c=20.0) -> float:
@@ -425,16 +443,20 @@ def resistance_by_layer(coil, *, temperature_c=20.0, freq_hz=0.0) -> dict:
 
 @dataclass(frozen=True)
 class PathNetwork:
-    """Connectivity of the current path: one edge per path step.
+    """Connectivity of the coil's copper: traces on the path and via barrels.
 
     Attributes
     ----------
     n_nodes, node_a, node_b : int
         Node count and the nodes of terminals A and B.
     edge_i, edge_j : ndarray of int, shape (m,)
-        Start and end node of each step that has resistive elements.
+        End nodes of each edge.
     step : ndarray of int, shape (m,)
-        Index into ``coil.path`` of each edge.
+        For a trace edge, the index into ``coil.path`` of its step (the
+        edges of trace steps come first, in path order); -1 for a barrel.
+    barrel_length_m, barrel_drill_m : ndarray, shape (m,)
+        For a barrel edge (between two consecutive pad layers of a via),
+        its length and drill; 0 for trace edges.
     """
 
     n_nodes: int
@@ -443,27 +465,38 @@ class PathNetwork:
     edge_i: np.ndarray
     edge_j: np.ndarray
     step: np.ndarray
+    barrel_length_m: np.ndarray
+    barrel_drill_m: np.ndarray
+
+    @property
+    def is_barrel(self) -> np.ndarray:
+        return self.step < 0
 
     def solve(self, edge_ohm):
         """:func:`network_resistance` over this network."""
         return network_resistance(self.n_nodes, self.node_a, self.node_b, self.edge_i, self.edge_j, edge_ohm)
 
 
-def step_sums(elements: PathElements, values) -> np.ndarray:
-    """Sum per-element ``values`` over each path step, in the order of
-    :func:`path_network`'s edges."""
-    steps, inverse = np.unique(elements.step, return_inverse=True)
-    return np.bincount(inverse, weights=values, minlength=len(steps))
+def trace_step_sums(elements: PathElements, values) -> np.ndarray:
+    """Sum per-element ``values`` over each trace step, in the order of the
+    trace edges of :func:`path_network`."""
+    tr = elements.kind == "trace"
+    steps, inverse = np.unique(elements.step[tr], return_inverse=True)
+    return np.bincount(inverse, weights=np.asarray(values, dtype=float)[tr], minlength=len(steps))
 
 
 def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
-    """Connectivity of the coil's current path.
+    """Connectivity of the coil: the path's traces plus every via barrel.
 
-    Nodes are via pads (via, layer) and free trace ends (layer, x, y); a
-    trace end lying on a via pad of its layer joins that pad, and trace
-    ends within 1 nm of each other join.
+    Nodes are via pads (via, layer) and free trace ends (layer, x, y). A
+    trace end lying on a via pad of its layer joins that pad; trace ends
+    within 1 nm of each other join. Each via contributes one barrel edge
+    between every two consecutive layers it has pads on (the plated hole
+    joins all of them, whether or not the path lists the step), except
+    terminal pads, which are one node (see :func:`path_elements`).
     """
     e = path_elements(coil) if elements is None else elements
+    st = coil.stackup
     nodes: dict = {}
     vias_by_layer: dict[int, list[int]] = {}
     for vi, v in enumerate(coil.vias):
@@ -471,41 +504,60 @@ def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
             vias_by_layer.setdefault(layer, []).append(vi)
     snap = 1e-6  # mm: trace ends closer than this are the same node
 
-    def node_at(layer, xy, via_hint=None):
-        if via_hint is not None:
-            key = ("via", via_hint, layer)
-        else:
-            key = None
-            for vi in vias_by_layer.get(layer, ()):
-                v = coil.vias[vi]
-                if np.hypot(*(xy - v.xy)) <= v.pad_mm / 2 + snap:
-                    key = ("via", vi, layer)
-                    break
-            if key is None:
-                key = ("pt", layer, round(float(xy[0]) / snap), round(float(xy[1]) / snap))
+    terminal_vias = {t.via for t in coil.terminals}
+
+    def pad_key(vi, layer):
+        # A terminal pad is one node on every layer (see path_elements).
+        return ("via", vi, 0) if vi in terminal_vias else ("via", vi, layer)
+
+    def node_at(layer, xy):
+        key = None
+        for vi in vias_by_layer.get(layer, ()):
+            v = coil.vias[vi]
+            if np.hypot(*(xy - v.xy)) <= v.pad_mm / 2 + snap:
+                key = pad_key(vi, layer)
+                break
+        if key is None:
+            key = ("pt", layer, round(float(xy[0]) / snap), round(float(xy[1]) / snap))
         return nodes.setdefault(key, len(nodes))
 
-    # One edge per path step: a trace's segments are in series.
-    steps, first = np.unique(e.step, return_index=True)
-    last = np.append(first[1:], len(e.step)) - 1
-    ei, ej = [], []
-    for k0, k1, s_idx in zip(first, last, steps):
-        step = coil.path[s_idx]
-        hint = step.index if step.kind == "via" else None
-        ei.append(node_at(e.layer[k0], e.start_mm[k0], hint))
-        ej.append(node_at(e.end_layer[k1], e.end_mm[k1], hint))
+    tr = np.nonzero(e.kind == "trace")[0]
+    steps, first = np.unique(e.step[tr], return_index=True)
+    last = np.append(first[1:], len(tr)) - 1
+    ei, ej, step, blen, bdrill = [], [], [], [], []
+    for k0, k1, s_idx in zip(tr[first], tr[last], steps):
+        ei.append(node_at(e.layer[k0], e.start_mm[k0]))
+        ej.append(node_at(e.layer[k1], e.end_mm[k1]))
+        step.append(int(s_idx))
+        blen.append(0.0)
+        bdrill.append(0.0)
+    for vi, v in enumerate(coil.vias):
+        layers = sorted(v.layers)
+        if vi in terminal_vias:
+            continue
+        for la, lb in zip(layers[:-1], layers[1:]):
+            ei.append(nodes.setdefault(("via", vi, la), len(nodes)))
+            ej.append(nodes.setdefault(("via", vi, lb), len(nodes)))
+            step.append(-1)
+            blen.append(abs(st.z_mm(la) - st.z_mm(lb)) * 1e-3)
+            bdrill.append(v.drill_mm * 1e-3)
     term = {t.name: t for t in coil.terminals}
     if "A" not in term or "B" not in term:
         raise GeometryError(f"the coil needs terminals 'A' and 'B'; got {sorted(term)}")
-    a = _terminal_node(coil, term["A"], nodes)
-    b = _terminal_node(coil, term["B"], nodes)
-    return PathNetwork(len(nodes), a, b, np.array(ei, dtype=int), np.array(ej, dtype=int), steps)
+    a = nodes.setdefault(pad_key(term["A"].via, 0), len(nodes))
+    b = nodes.setdefault(pad_key(term["B"].via, 0), len(nodes))
+    return PathNetwork(
+        len(nodes), a, b, np.array(ei, dtype=int), np.array(ej, dtype=int), np.array(step, dtype=int), np.array(blen), np.array(bdrill)
+    )
 
 
-def _terminal_node(coil, terminal, nodes) -> int:
-    v = coil.vias[terminal.via]
-    for layer in sorted(v.layers):
-        key = ("via", terminal.via, layer)
-        if key in nodes:
-            return nodes[key]
-    raise GeometryError(f"terminal {terminal.name}'s pad (via {terminal.via}) is not on the current path")
+def network_edge_resistances(coil, net: PathNetwork, elements: PathElements, element_ohm, *, temperature_c=20.0, freq_hz=0.0):
+    """Resistance of every edge of ``net`` (ohm): trace edges from the
+    elements' resistances, barrels from :func:`barrel_resistance`."""
+    out = np.empty(len(net.step))
+    out[~net.is_barrel] = trace_step_sums(elements, element_ohm)
+    b = net.is_barrel
+    rho = copper_resistivity(temperature_c)
+    plating = coil.stackup.plating_um * 1e-6
+    out[b] = barrel_resistance(net.barrel_length_m[b], net.barrel_drill_m[b], plating, rho, freq_hz)
+    return out
