@@ -69,7 +69,8 @@ from scipy.special import ellipkm1
 
 from ..errors import SpecError
 from .materials import EPS0
-from .resistance import path_elements, path_network, trace_step_sums
+from .conductors import conductors
+from .resistance import path_network, trace_step_sums
 
 PARALLEL_COS = np.cos(np.deg2rad(45.0))  # traces within 45 degrees join a cut
 MAX_GAP_OVER_WIDTH = 10.0  # a cut's cluster spans gaps up to this many widths
@@ -257,10 +258,10 @@ def trace_potentials(coil) -> dict:
     dict
         {trace index: (v_start, v_end)}.
     """
-    e = path_elements(coil)
-    net = path_network(coil, e)
+    cond = conductors(coil)
+    net = path_network(coil, cond)
     weight = np.zeros(len(net.step))
-    weight[~net.is_barrel] = trace_step_sums(e, e.length_m)
+    weight[~net.is_barrel] = trace_step_sums(cond, cond.length_m)
     # Vias carry no length in this model; a tiny weight keeps the network regular.
     weight = np.maximum(weight, 1e-9 * max(float(weight.sum()), 1e-12))
     r, _, v = net.solve(weight)

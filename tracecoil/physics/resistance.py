@@ -1,8 +1,9 @@
 """Resistance of a coil: DC with temperature, skin depth, closed-form AC.
 
 Kernels (plain arrays, SI units) come first; the coil-level functions below
-them read the :class:`~tracecoil.layout.Coil` (millimetres) and convert to SI
-in one place, :func:`path_elements`.
+them read the coil's conductor segments
+(:func:`tracecoil.physics.conductors.conductors`, SI) and, for the
+network's connectivity, its vias and terminals.
 
 Models
 ------
@@ -63,6 +64,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import GeometryError, SpecError
+from .conductors import MM, Conductors, conductors
 from .materials import MU0, copper_resistivity
 
 RESISTANCE_METHODS = ("network", "path")
@@ -276,100 +278,25 @@ def _component(n, ei, ej, start):
 # ----------------------------------------------------------------------------
 
 
-@dataclass(frozen=True)
-class PathElements:
-    """The coil's current path as straight resistive elements (SI).
+def segment_resistances(cond: Conductors, *, temperature_c=20.0, freq_hz=0.0) -> np.ndarray:
+    """Resistance of every conductor segment (ohm), DC or closed-form AC.
 
-    One row per straight trace segment or via barrel, in path order.
-
-    Attributes
+    Parameters
     ----------
-    kind : ndarray of str, shape (n,)
-        'trace' or 'via'.
-    step : ndarray of int, shape (n,)
-        Index into ``coil.path`` of the step the element belongs to.
-    layer : ndarray of int, shape (n,)
-        Copper layer of a trace segment; for a via the layer it leaves.
-    length_m, width_m, thickness_m : ndarray, shape (n,)
-        Trace: centreline length, width, copper thickness. Via: barrel
-        length, drill diameter, plating thickness.
-    fraction : ndarray, shape (n,)
-        Share of the terminal current (``Step.fraction``).
-    start_mm, end_mm : ndarray, shape (n, 2)
-        In-plane ends (mm) for network connectivity; a via has both at its
-        centre.
-    end_layer : ndarray of int, shape (n,)
-        Layer of the element's end (differs from ``layer`` for vias).
-    """
-
-    kind: np.ndarray
-    step: np.ndarray
-    layer: np.ndarray
-    length_m: np.ndarray
-    width_m: np.ndarray
-    thickness_m: np.ndarray
-    fraction: np.ndarray
-    start_mm: np.ndarray
-    end_mm: np.ndarray
-    end_layer: np.ndarray
-
-
-def path_elements(coil) -> PathElements:
-    """Split the coil's current path into straight resistive elements.
-
-    Zero-length elements are dropped, and so are barrels of terminal pads:
-    the pin or wire soldered through a terminal pad joins its layers, so
-    the current does not flow along that barrel.
-    """
-    rows = []
-    st = coil.stackup
-    terminal_vias = {t.via for t in coil.terminals}
-    for k, s in enumerate(coil.path):
-        if s.kind == "trace":
-            tr = coil.traces[s.index]
-            p = tr.points_mm
-            seg = np.linalg.norm(np.diff(p, axis=0), axis=1)
-            t_m = st.copper_um[tr.layer - 1] * 1e-6
-            for i in np.nonzero(seg > 0)[0]:
-                rows.append(("trace", k, tr.layer, seg[i] * 1e-3, tr.width_mm * 1e-3, t_m, s.fraction, p[i], p[i + 1], tr.layer))
-        elif s.kind == "via":
-            v = coil.vias[s.index]
-            if s.from_layer == s.to_layer or not s.from_layer or s.index in terminal_vias:
-                continue
-            length = abs(st.z_mm(s.from_layer) - st.z_mm(s.to_layer)) * 1e-3
-            rows.append(("via", k, s.from_layer, length, v.drill_mm * 1e-3, st.plating_um * 1e-6, s.fraction, v.xy, v.xy, s.to_layer))
-        else:
-            raise GeometryError(f"path step {k}: kind must be 'trace' or 'via'; got {s.kind!r}")
-    if not rows:
-        raise GeometryError("the coil has an empty current path")
-    cols = list(zip(*rows))
-    return PathElements(
-        kind=np.array(cols[0]),
-        step=np.array(cols[1], dtype=int),
-        layer=np.array(cols[2], dtype=int),
-        length_m=np.array(cols[3], dtype=float),
-        width_m=np.array(cols[4], dtype=float),
-        thickness_m=np.array(cols[5], dtype=float),
-        fraction=np.array(cols[6], dtype=float),
-        start_mm=np.array(cols[7], dtype=float).reshape(-1, 2),
-        end_mm=np.array(cols[8], dtype=float).reshape(-1, 2),
-        end_layer=np.array(cols[9], dtype=int),
-    )
-
-
-def element_resistances(elements: PathElements, *, temperature_c=20.0, freq_hz=0.0) -> np.ndarray:
-    """Resistance of every path element (ohm), DC or closed-form AC.
+    cond : Conductors
+        From :func:`tracecoil.physics.conductors.conductors`: traces are
+        strips (width x thickness), vias barrels (outer diameter, wall).
 
     Returns
     -------
     ndarray, shape (n,)
     """
     rho = copper_resistivity(temperature_c)
-    is_via = elements.kind == "via"
-    r = np.empty(len(elements.kind))
-    e = elements
-    r[~is_via] = strip_resistance(e.length_m[~is_via], e.width_m[~is_via], e.thickness_m[~is_via], rho, freq_hz)
-    r[is_via] = barrel_resistance(e.length_m[is_via], e.width_m[is_via], e.thickness_m[is_via], rho, freq_hz)
+    via = cond.is_via
+    length = cond.length_m
+    r = np.empty(len(cond))
+    r[~via] = strip_resistance(length[~via], cond.width_m[~via], cond.thickness_m[~via], rho, freq_hz)
+    r[via] = barrel_resistance(length[via], cond.width_m[via], cond.thickness_m[via], rho, freq_hz)
     return r
 
 
@@ -400,12 +327,12 @@ def dc_resistance(coil, *, temperature_c=20.0, method="network") -> float:
     _check_temperature(temperature_c)
     if method not in RESISTANCE_METHODS:
         raise SpecError(f"method must be one of {RESISTANCE_METHODS}; got {method!r}")
-    e = path_elements(coil)
-    r = element_resistances(e, temperature_c=temperature_c)
+    cond = conductors(coil)
+    r = segment_resistances(cond, temperature_c=temperature_c)
     if method == "path":
-        return float(np.sum(e.fraction**2 * r))
-    net = path_network(coil, e)
-    return net.solve(network_edge_resistances(coil, net, e, r, temperature_c=temperature_c))[0]
+        return float(np.sum(cond.fraction**2 * r))
+    net = path_network(coil, cond)
+    return net.solve(network_edge_resistances(coil, net, cond, r, temperature_c=temperature_c))[0]
 
 
 def ac_resistance(coil, freq_hz, *, temperature_c=20.0) -> float:
@@ -418,9 +345,9 @@ def ac_resistance(coil, freq_hz, *, temperature_c=20.0) -> float:
     _check_temperature(temperature_c)
     if not (np.isfinite(freq_hz) and freq_hz >= 0):
         raise SpecError(f"freq_hz must be a finite number >= 0; got {freq_hz!r}")
-    e = path_elements(coil)
-    r = element_resistances(e, temperature_c=temperature_c, freq_hz=float(freq_hz))
-    return float(np.sum(e.fraction**2 * r))
+    cond = conductors(coil)
+    r = segment_resistances(cond, temperature_c=temperature_c, freq_hz=float(freq_hz))
+    return float(np.sum(cond.fraction**2 * r))
 
 
 def resistance_by_layer(coil, *, temperature_c=20.0, freq_hz=0.0) -> dict:
@@ -432,12 +359,13 @@ def resistance_by_layer(coil, *, temperature_c=20.0, freq_hz=0.0) -> dict:
     dict
         Keys are layer numbers (int) and the string 'vias'.
     """
-    e = path_elements(coil)
-    r = e.fraction**2 * element_resistances(e, temperature_c=temperature_c, freq_hz=freq_hz)
+    cond = conductors(coil)
+    r = cond.fraction**2 * segment_resistances(cond, temperature_c=temperature_c, freq_hz=freq_hz)
+    trace = ~cond.is_via
     out = {}
-    for layer in sorted(set(e.layer[e.kind == "trace"].tolist())):
-        out[layer] = float(r[(e.kind == "trace") & (e.layer == layer)].sum())
-    out["vias"] = float(r[e.kind == "via"].sum())
+    for layer in sorted(set(cond.layer[trace].tolist())):
+        out[layer] = float(r[trace & (cond.layer == layer)].sum())
+    out["vias"] = float(r[cond.is_via].sum())
     return out
 
 
@@ -477,15 +405,15 @@ class PathNetwork:
         return network_resistance(self.n_nodes, self.node_a, self.node_b, self.edge_i, self.edge_j, edge_ohm)
 
 
-def trace_step_sums(elements: PathElements, values) -> np.ndarray:
-    """Sum per-element ``values`` over each trace step, in the order of the
+def trace_step_sums(cond: Conductors, values) -> np.ndarray:
+    """Sum per-segment ``values`` over each trace step, in the order of the
     trace edges of :func:`path_network`."""
-    tr = elements.kind == "trace"
-    steps, inverse = np.unique(elements.step[tr], return_inverse=True)
+    tr = ~cond.is_via
+    steps, inverse = np.unique(cond.step[tr], return_inverse=True)
     return np.bincount(inverse, weights=np.asarray(values, dtype=float)[tr], minlength=len(steps))
 
 
-def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
+def path_network(coil, cond: Conductors | None = None) -> PathNetwork:
     """Connectivity of the coil: the path's traces plus every via barrel.
 
     Nodes are via pads (via, layer) and free trace ends (layer, x, y). A
@@ -493,9 +421,11 @@ def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
     within 1 nm of each other join. Each via contributes one barrel edge
     between every two consecutive layers it has pads on (the plated hole
     joins all of them, whether or not the path lists the step), except
-    terminal pads, which are one node (see :func:`path_elements`).
+    terminal pads, which are one node (the pin soldered through joins them).
     """
-    e = path_elements(coil) if elements is None else elements
+    cond = conductors(coil) if cond is None else cond
+    start_mm = cond.start_m[:, :2] / MM
+    end_mm = cond.end_m[:, :2] / MM
     st = coil.stackup
     nodes: dict = {}
     vias_by_layer: dict[int, list[int]] = {}
@@ -507,7 +437,7 @@ def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
     terminal_vias = {t.via for t in coil.terminals}
 
     def pad_key(vi, layer):
-        # A terminal pad is one node on every layer (see path_elements).
+        # A terminal pad is one node on every layer: the pin soldered through joins them.
         return ("via", vi, 0) if vi in terminal_vias else ("via", vi, layer)
 
     def node_at(layer, xy):
@@ -521,13 +451,13 @@ def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
             key = ("pt", layer, round(float(xy[0]) / snap), round(float(xy[1]) / snap))
         return nodes.setdefault(key, len(nodes))
 
-    tr = np.nonzero(e.kind == "trace")[0]
-    steps, first = np.unique(e.step[tr], return_index=True)
+    tr = np.nonzero(~cond.is_via)[0]
+    steps, first = np.unique(cond.step[tr], return_index=True)
     last = np.append(first[1:], len(tr)) - 1
     ei, ej, step, blen, bdrill = [], [], [], [], []
     for k0, k1, s_idx in zip(tr[first], tr[last], steps):
-        ei.append(node_at(e.layer[k0], e.start_mm[k0]))
-        ej.append(node_at(e.layer[k1], e.end_mm[k1]))
+        ei.append(node_at(cond.layer[k0], start_mm[k0]))
+        ej.append(node_at(cond.layer[k1], end_mm[k1]))
         step.append(int(s_idx))
         blen.append(0.0)
         bdrill.append(0.0)
@@ -551,11 +481,11 @@ def path_network(coil, elements: PathElements | None = None) -> PathNetwork:
     )
 
 
-def network_edge_resistances(coil, net: PathNetwork, elements: PathElements, element_ohm, *, temperature_c=20.0, freq_hz=0.0):
+def network_edge_resistances(coil, net: PathNetwork, cond: Conductors, segment_ohm, *, temperature_c=20.0, freq_hz=0.0):
     """Resistance of every edge of ``net`` (ohm): trace edges from the
-    elements' resistances, barrels from :func:`barrel_resistance`."""
+    segments' resistances, barrels from :func:`barrel_resistance`."""
     out = np.empty(len(net.step))
-    out[~net.is_barrel] = trace_step_sums(elements, element_ohm)
+    out[~net.is_barrel] = trace_step_sums(cond, segment_ohm)
     b = net.is_barrel
     rho = copper_resistivity(temperature_c)
     plating = coil.stackup.plating_um * 1e-6
