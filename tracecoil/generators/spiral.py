@@ -150,7 +150,7 @@ class _Assembler:
 
     # ------------------------------------------------------------- hole room
     def _ring_radius(self, angle: float, pad: float) -> float:
-        return float(self.edge.radius_at(angle)) + self.spec.gap_mm + pad / 2
+        return self.edge.clear_radius(angle, self.spec.gap_mm + pad / 2)
 
     def _spacing(self, radius: float, pad: float) -> float:
         """Smallest angle between two holes of diameter ``pad`` at ``radius``

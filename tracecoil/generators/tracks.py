@@ -47,6 +47,33 @@ class Outline:
             r = np.where(cos > 1e-12, self.distances / np.where(cos > 1e-12, cos, 1.0), np.inf)
         return r.min(axis=-1)
 
+    def vertices(self) -> np.ndarray:
+        """Corners of a polygon outline (n, 2), counter-clockwise."""
+        n = self.normals
+        nxt = np.roll(np.arange(len(n)), -1)
+        return np.array([np.linalg.solve(np.stack([n[i], n[j]]), [self.distances[i], self.distances[j]]) for i, j in zip(range(len(n)), nxt)])
+
+    def clear_radius(self, angle: float, clearance_mm: float) -> float:
+        """Distance from the centre, along polar ``angle``, of the nearest
+        point that is ``clearance_mm`` outside this outline (exact: the
+        point-to-polygon distance grows monotonically along the ray)."""
+        if self.normals is None:
+            return float(self.distances[0] + clearance_mm)
+        from shapely.geometry import Point, Polygon
+
+        poly = Polygon(self.vertices())
+        u = np.array([math.cos(angle), math.sin(angle)])
+        lo = float(self.radius_at(angle))
+        hi = lo + clearance_mm / max(float(np.min(np.abs(self.normals @ u))), 1e-3) + clearance_mm
+        hi = max(hi, lo + 2 * clearance_mm) * 2
+        for _ in range(60):
+            mid = 0.5 * (lo + hi)
+            if Point(*(u * mid)).distance(poly) < clearance_mm:
+                lo = mid
+            else:
+                hi = mid
+        return hi
+
     @property
     def min_distance(self) -> float:
         return float(self.distances.min())
