@@ -246,3 +246,29 @@ def test_random_designs_are_sound(d):
     check_terminals_outside(c)
     check_pitch(c, exact=False)
     assert all(g.is_valid for g in outlines(c).copper.values())
+
+
+def test_custom_paths_become_a_coil(tmp_path):
+    from tracecoil import custom_coil, load_design
+    from tracecoil.generators import coil_from_design
+
+    # a figure-eight style path on two layers (invented example)
+    pts1 = [[0, 0], [8, 0], [8, 8], [2, 8], [2, 2]]
+    pts2 = [[2, 2], [6, 2], [6, 6], [0, 6]]
+    c = custom_coil([(1, pts1), (2, pts2)], width_mm=0.3)
+    check_connected(c)
+    assert [v.role for v in c.vias] == ["terminal", "via", "terminal"]
+    assert c.traces[0].length_mm == pytest.approx(8 + 8 + 6 + 6)
+    f = tmp_path / "c.toml"
+    f.write_text('[coil]\nshape = "custom"\nwidth_mm = 0.3\npaths = [{layer = 1, points = [[0, 0], [8, 0], [8, 8], [2, 8], [2, 2]]}, {layer = 2, points = [[2, 2], [6, 2], [6, 6], [0, 6]]}]\n')
+    c2 = coil_from_design(load_design(f))
+    assert_allclose(c2.traces[1].points_mm, c.traces[1].points_mm)
+
+
+def test_custom_paths_must_meet():
+    from tracecoil import custom_coil
+
+    with pytest.raises(GeometryError, match=r"paths\[1\] starts at"):
+        custom_coil([(1, [[0, 0], [5, 0]]), (2, [[5, 1], [0, 1]])], width_mm=0.2)
+    with pytest.raises(SpecError, match="at least 2 points"):
+        custom_coil([(1, [[0, 0]])], width_mm=0.2)

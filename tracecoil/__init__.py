@@ -8,5 +8,5 @@ __version__ = "0.1.0"
 from .design import BoardSpec, CoilSpec, Design, load_design
 from .errors import GeometryError, SpecError
 from .export import build, summary
-from .generators import build_coil, coil_from_design, max_turns, spiral
+from .generators import build_coil, coil_from_design, custom_coil, max_turns, spiral
 from .layout import Coil, Stackup, Step, Terminal, Trace, Via

@@ -29,7 +29,7 @@ from .errors import SpecError, unknown_key_message
 from .layout import Stackup
 from .units import to_mm, to_um
 
-SHAPES = ("circle", "square", "rectangle", "hexagon", "octagon", "polygon")
+SHAPES = ("circle", "square", "rectangle", "hexagon", "octagon", "polygon", "custom")
 WIRINGS = ("series", "parallel")
 DIRECTIONS = ("ccw", "cw")
 CORNERS = ("sharp", "round", "chamfer")
@@ -196,6 +196,11 @@ class CoilSpec:
     return_lead : {'layer', 'none'}
         How the inner end gets out when it must: 'layer' runs a return lead
         on a spare copper layer; 'none' leaves terminal B at the centre.
+    paths : tuple of dict or None
+        Custom shape only: the centrelines in current order, each
+        ``{"layer": n, "points": [[x, y], ...]}`` in mm; consecutive paths
+        on different layers are joined by a via where one ends and the next
+        begins.
     on_layers : tuple of int or None
         Which board copper layers carry the winding (1 = top). Default:
         layers 1..n, or top and bottom for two layers on a thicker board.
@@ -224,6 +229,7 @@ class CoilSpec:
     return_lead: str = "layer"
     on_layers: tuple[int, ...] | None = None
     return_layer: int | None = None
+    paths: tuple | None = None
 
     def __post_init__(self):
         mm_keys = ("outer_mm", "width_mm", "gap_mm", "corner_mm", "tolerance_mm", "via_drill_mm", "via_pad_mm", "pad_mm", "pad_drill_mm")
@@ -264,6 +270,11 @@ class CoilSpec:
             object.__setattr__(self, "sides", _check_int("sides", self.sides, 3, 64))
         elif self.sides is not None:
             raise SpecError(f"sides applies to shape 'polygon' only; got shape {self.shape!r}")
+        if self.shape == "custom":
+            object.__setattr__(self, "paths", _check_paths(self.paths))
+            object.__setattr__(self, "layers", len({p["layer"] for p in self.paths}))
+        elif self.paths is not None:
+            raise SpecError(f"paths applies to shape 'custom' only; got shape {self.shape!r}")
         if self.on_layers is not None:
             ol = tuple(_check_int("on_layers", x, 1, MAX_LAYERS) for x in self.on_layers)
             if len(ol) != self.layers or len(set(ol)) != len(ol):
@@ -280,6 +291,26 @@ class CoilSpec:
     def n_sides(self) -> int | None:
         """Sides of the polygon family, or None for a circle."""
         return {"square": 4, "rectangle": 4, "hexagon": 6, "octagon": 8, "polygon": self.sides}.get(self.shape)
+
+
+def _check_paths(paths):
+    if not paths:
+        raise SpecError("shape 'custom' needs paths: a list of {layer = n, points = [[x, y], ...]} in current order")
+    out = []
+    for i, p in enumerate(paths):
+        if not isinstance(p, dict) or set(p) != {"layer", "points"}:
+            raise SpecError(f"paths[{i}] must be a table with exactly the keys 'layer' and 'points'; got {p!r}"[:200])
+        layer = _check_int(f"paths[{i}].layer", p["layer"], 1, MAX_LAYERS)
+        try:
+            pts = tuple((float(to_mm(x, f"paths[{i}].points")), float(to_mm(y, f"paths[{i}].points"))) for x, y in p["points"])
+        except (TypeError, ValueError) as e:
+            raise SpecError(f"paths[{i}].points must be a list of [x, y] pairs in mm ({e})") from None
+        if len(pts) < 2:
+            raise SpecError(f"paths[{i}].points needs at least 2 points; got {len(pts)}")
+        if any(math.dist(a, b) == 0 for a, b in zip(pts, pts[1:])):
+            raise SpecError(f"paths[{i}].points repeats a point; consecutive points must differ")
+        out.append({"layer": layer, "points": pts})
+    return tuple(out)
 
 
 COIL_KEYS = tuple(f.name for f in fields(CoilSpec))

@@ -42,7 +42,7 @@ def spiral(*, board=None, name: str = "coil", **coil) -> Coil:
     >>> [t.role for t in c.traces]
     ['lead', 'winding', 'lead', 'return']
     >>> round(c.traces[1].length_mm, 2)
-    292.8
+    335.21
     """
     spec = make_coil_spec(coil)
     if board is None:
@@ -60,6 +60,10 @@ def default_board_layers(spec: CoilSpec) -> int:
 
 def build_coil(spec: CoilSpec, board: BoardSpec, *, name: str = "coil") -> Coil:
     """Build the :class:`Coil` for validated ``spec`` and ``board``."""
+    if spec.shape == "custom":
+        from .custom import build_custom
+
+        return build_custom(spec, board, name=name)
     return _Assembler(spec, board, name).build()
 
 
@@ -69,7 +73,7 @@ def max_turns(spec: CoilSpec, board: BoardSpec | None = None) -> float:
 
     >>> from tracecoil.design import CoilSpec
     >>> max_turns(CoilSpec(shape="circle", outer_mm=10, turns=1, width_mm=0.2, gap_mm=0.2))
-    9.125
+    9.75
     """
     board = board or make_board_spec({"layers": max(2, spec.layers + 1)})
     coil = {f: getattr(spec, f) for f in spec.__dataclass_fields__}
@@ -182,8 +186,6 @@ class _Assembler:
     # --------------------------------------------------------------- building
     def build(self) -> Coil:
         s = self.spec
-        if s.shape == "custom":  # pragma: no cover - custom coils have their own builder
-            raise SpecError("use tracecoil.custom_coil for shape 'custom'")
         self._check_fit()
         if s.wiring == "parallel" and s.layers > 1:
             self._build_parallel()

@@ -101,7 +101,7 @@ def circle_steps(radius_mm: float, tolerance_mm: float) -> float:
     from a circle of ``radius_mm``: sagitta r(1 - cos(step/2)) <= tol.
 
     >>> round(circle_steps(10.0, 0.01), 5)
-    0.08946
+    0.08945
     """
     if tolerance_mm >= radius_mm:
         return np.pi / 2
