@@ -75,7 +75,7 @@ from .resistance import path_network, trace_step_sums
 PARALLEL_COS = np.cos(np.deg2rad(45.0))  # traces within 45 degrees join a cut
 MAX_GAP_OVER_WIDTH = 10.0  # a cut's cluster spans gaps up to this many widths
 DEFAULT_CUTS = 24
-MAX_UNKNOWNS = 360  # method-of-moments cells per cross-section, at most
+MAX_UNKNOWNS = 240  # method-of-moments cells per cross-section, at most
 
 # ----------------------------------------------------------------------------
 # kernels (SI, arrays)
@@ -320,7 +320,7 @@ def capacitance(coil, *, cuts: int = DEFAULT_CUTS, cells: int = 10) -> Capacitan
         Cross-sections sampled along the winding (>= 4).
     cells : int
         Method-of-moments cells per strip (>= 2); fewer are used when a
-        cross-section holds more than 36 strips (at most 360 cells).
+        cross-section holds more than 24 strips (at most 240 cells).
 
     Returns
     -------
