@@ -155,7 +155,8 @@ class LayerShare:
 class Prediction:
     """Predicted electrical behaviour of a coil at one frequency (SI units).
 
-    ``srf_hz`` is 1/(2 pi sqrt(L C)) with the low-frequency L; ``q`` is
+    ``srf_hz`` is 1/(2 pi sqrt(L C)) with L = ``inductance_h`` (L(f) at
+    ``frequency_hz``, the value the SPICE subcircuit carries); ``q`` is
     w L(f) / R(f) at ``frequency_hz``; ``q_with_capacitance`` is Im Z /
     Re Z at the terminals with C across them.
     """
@@ -347,7 +348,8 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
     method = "filament model (skin and proximity effect)"
     est = _cap.capacitance(coil, cuts=capacitance_cuts)
     c = est.total_f
-    srf = float(_cc.resonant_frequency(l_dc, c)) if c > 0 else math.inf
+    # The SRF uses the same L as the SPICE subcircuit: L(f) at the frequency.
+    srf = float(_cc.resonant_frequency(l_f, c)) if c > 0 else math.inf
     q = float(_cc.quality_factor(f, l_f, r_f))
     z = complex(_cc.coil_impedance(f, l_f, r_f, c))
     q_c = z.imag / z.real
