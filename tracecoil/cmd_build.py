@@ -23,7 +23,7 @@ def load_design_arg(name: str):
     from .design import load_design
     from .templates import template_path
 
-    if Path(name).is_file() or name.endswith(".toml") and "/" in name:
+    if Path(name).is_file() or name.endswith(".toml") or "/" in name:
         return load_design(name)
     return load_design(template_path(name))
 
