@@ -10,3 +10,4 @@ from .errors import GeometryError, SpecError
 from .export import build, summary
 from .generators import build_coil, coil_from_design, custom_coil, max_turns, spiral
 from .layout import Coil, Stackup, Step, Terminal, Trace, Via
+from .predict import Prediction, frequency_sweep, predict
