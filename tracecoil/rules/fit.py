@@ -166,14 +166,14 @@ def spec_problems(spec: CoilSpec, board: BoardSpec, rules: RuleSet, *, current_a
     w_min, g_min = _limits(rules, layers, n)
     if spec.width_mm < w_min - tol:
         alt = _alternatives(rules, lambda r: spec.width_mm >= _limits(r, layers, n)[0] - tol)
-        out.append(f"width_mm = {spec.width_mm:g} mm is narrower than the {w_min:g} mm minimum trace width of {rs} ({where(layers)} layers); use width_mm >= {w_min:g}{alt}")
+        out.append(f"width_mm = {spec.width_mm:g} mm is narrower than the {w_min:g} mm minimum trace width of {rs} ({where(layers)} layers): use width_mm >= {w_min:g}{alt}")
     if spec.gap_mm < g_min - tol:
         alt = _alternatives(rules, lambda r: spec.gap_mm >= _limits(r, layers, n)[1] - tol)
-        out.append(f"gap_mm = {spec.gap_mm:g} mm is below the {g_min:g} mm minimum gap of {rs}; use gap_mm >= {g_min:g}{alt}")
+        out.append(f"gap_mm = {spec.gap_mm:g} mm is below the {g_min:g} mm minimum gap of {rs}: use gap_mm >= {g_min:g}{alt}")
     for key, value in (("via_drill_mm", spec.via_drill_mm), ("pad_drill_mm", spec.pad_drill_mm)):
         if value < rules.min_drill_mm - tol:
             alt = _alternatives(rules, lambda r, v=value: v >= r.min_drill_mm - tol)
-            out.append(f"{key} = {value:g} mm is smaller than the {rules.min_drill_mm:g} mm minimum drill of {rs}; use {key} >= {rules.min_drill_mm:g}{alt}")
+            out.append(f"{key} = {value:g} mm is smaller than the {rules.min_drill_mm:g} mm minimum drill of {rs}: use {key} >= {rules.min_drill_mm:g}{alt}")
     for pad_key, drill_key in (("via_pad_mm", "via_drill_mm"), ("pad_mm", "pad_drill_mm")):
         pad, drill = getattr(spec, pad_key), getattr(spec, drill_key)
         ring = (pad - drill) / 2
@@ -187,7 +187,7 @@ def spec_problems(spec: CoilSpec, board: BoardSpec, rules: RuleSet, *, current_a
     if V > 0:
         need = max(electrical.spacing_for_voltage_mm(V, internal=not RuleSet.is_outer(l, n), condition=rules.condition) for l in layers)
         if spec.gap_mm < need - tol:
-            out.append(f"gap_mm = {spec.gap_mm:g} mm is below the {need:g} mm that {V:g} V needs between conductors (IPC-2221 Table 6-1, from memory); use gap_mm >= {need:g}")
+            out.append(f"gap_mm = {spec.gap_mm:g} mm is below the {need:g} mm that {V:g} V needs between conductors (IPC-2221 Table 6-1, from memory): use gap_mm >= {need:g}")
     I = rules.design_current_a if current_a is None else current_a
     if I > 0:
         share = 1.0 / spec.layers if spec.wiring == "parallel" and spec.layers > 1 else 1.0
@@ -200,7 +200,7 @@ def spec_problems(spec: CoilSpec, board: BoardSpec, rules: RuleSet, *, current_a
                 need = float(electrical.trace_width_mm(I * carries, cu, rules.max_temp_rise_c, internal=internal))
                 out.append(
                     f"width_mm = {spec.width_mm:g} mm with {cu:g} um copper heats about {dt:.1f} K at {I * carries:g} A on layer {l} "
-                    f"(IPC-2221 fit), above the {rules.max_temp_rise_c:g} K of {rs}; use width_mm >= {need:.3f} or thicker copper"
+                    f"(IPC-2221 fit), above the {rules.max_temp_rise_c:g} K of {rs}: use width_mm >= {need:.3f} or thicker copper"
                 )
                 break
     if board.outline_mm is not None:
@@ -235,8 +235,8 @@ def validate_design(design, rules=None, *, current_a=None, voltage_v=None) -> Ru
     >>> try:
     ...     validate_design(d)
     ... except SpecError as e:
-    ...     print(str(e)[:78])
-    design 'coil' breaks rule set 'standard': width_mm = 0.12 mm is narrower than
+    ...     print(e)
+    design 'coil' breaks rule set 'standard': width_mm = 0.12 mm is narrower than the 0.15 mm minimum trace width of rule set 'standard' (outer layers): use width_mm >= 0.15, or choose rules = 'fine'
     """
     r = design_rules(design, rules)
     problems = spec_problems(design.coil, design.board, r, current_a=current_a, voltage_v=voltage_v)

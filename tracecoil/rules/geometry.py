@@ -587,5 +587,6 @@ def hole_edge_findings(drills, board, *, clearance_mm: float) -> list[Finding]:
         if not board.contains(c):
             gap = -gap - d
         if gap < clearance_mm - LIMIT_TOL_MM:
-            out.append(Finding("EDGE_CLEARANCE", "drill", (float(x), float(y)), gap, clearance_mm, f"the {d:.3f} mm hole at ({x:.3f}, {y:.3f}) is {gap:.4f} mm from the board edge; the minimum clearance is {clearance_mm:.4f} mm"))
+            where = f"is {gap:.4f} mm from the board edge" if gap >= 0 else "crosses the board edge" if gap > -d else "lies outside the board"
+            out.append(Finding("EDGE_CLEARANCE", "drill", (float(x), float(y)), gap, clearance_mm, f"the {d:.3f} mm hole at ({x:.3f}, {y:.3f}) {where}; the minimum clearance is {clearance_mm:.4f} mm"))
     return out
