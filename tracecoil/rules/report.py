@@ -43,7 +43,7 @@ def text_report(result: CheckResult) -> str:
     >>> from tracecoil.rules import check
     >>> text = text_report(check(spiral(shape="square", outer_mm=10, turns=3, width_mm=0.12, gap_mm=0.3), "standard"))
     >>> print(text.splitlines()[2])
-    Result: 1 violation
+    Result: 2 violations
     """
     r = result.rules
     src = f" ({r.source})" if r is not None and r.source else ""
