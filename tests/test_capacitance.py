@@ -119,13 +119,14 @@ def test_scales_with_size_and_permittivity():
 
 
 def test_converges_with_more_cuts():
-    # The cuts sample the winding: quadrupling them moves the estimate by
-    # far less than the model's own +-30-50 % uncertainty (8 % allowed; a
-    # square spiral's corners make the samples differ most).
-    coil = tracecoil.spiral(turns=5, outer_mm=20, width_mm=0.3, gap_mm=0.2, layers=2)
-    c24 = cap.capacitance(coil, cuts=24).total_f
-    c96 = cap.capacitance(coil, cuts=96).total_f
-    assert_allclose(c24, c96, rtol=0.08)
+    # The cuts sample the winding: quadrupling them from the default moves
+    # the estimate by far less than the model's own +-30-50 % uncertainty
+    # (8 % allowed, the scatter the module documents for a square spiral
+    # with few turns, whose corners make the samples differ most).
+    coil = tracecoil.spiral(turns=4, outer_mm=12, width_mm=0.25, gap_mm=0.2, layers=2)
+    c48 = cap.capacitance(coil).total_f
+    c192 = cap.capacitance(coil, cuts=192).total_f
+    assert_allclose(c48, c192, rtol=0.08)
 
 
 def test_more_turns_store_more_between_layers_than_within():

@@ -15,8 +15,9 @@ Voltage distribution
     with each trace weighted by its length.
 
 Cross-section model
-    The winding is sampled at ``cuts`` points spread evenly along its total
-    copper length. At each, a cut perpendicular to the trace collects every
+    The winding is sampled at about ``cuts`` points along its copper
+    (:func:`cut_positions`: stratified by trace, golden-ratio spacing within
+    each). At each, a cut perpendicular to the trace collects every
     roughly parallel trace (within 45 degrees) it crosses, on every layer,
     in the cluster of copper contiguous with the sampled trace (gaps up to
     ten trace widths or twice the board thickness). These strips, taken as
@@ -31,9 +32,12 @@ Cross-section model
     splits evenly between air and board), eps_r otherwise. The energy per
     length of the cross-section, (1/2) sum over pairs k < l of
     eps_kl C_kl (V_k - V_l)^2, is shared equally among its k strips; each
-    cut stands for 1/cuts of the total copper length, so it contributes
-    that energy times (copper length / cuts) / k. Sampling by copper length
-    makes the sum an unbiased estimate of the winding's energy. Unlike a
+    cut stands for a stretch ds of copper (its trace's length over the
+    trace's number of cuts), so it contributes that energy times ds / k.
+    Sampling by copper length makes the sum an estimate of the winding's
+    energy; its scatter from the choice of cuts is about 1 % for round
+    coils and up to about 10 % for polygons with few turns, whose corners
+    make the cross-sections differ most. Unlike a
     nearest-neighbour model, the cross-section keeps the long-range
     coupling between the outer and inner turns, which dominates for many
     turns (for a ramp of potentials over m coplanar strips the
@@ -74,7 +78,7 @@ from .resistance import path_network, trace_step_sums
 
 PARALLEL_COS = np.cos(np.deg2rad(45.0))  # traces within 45 degrees join a cut
 MAX_GAP_OVER_WIDTH = 10.0  # a cut's cluster spans gaps up to this many widths
-DEFAULT_CUTS = 24
+DEFAULT_CUTS = 48
 MAX_UNKNOWNS = 240  # method-of-moments cells per cross-section, at most
 
 # ----------------------------------------------------------------------------
@@ -247,6 +251,7 @@ class _Pieces:
     width: np.ndarray  # (n,)
     va: np.ndarray  # (n,) potential at a (fraction of the terminal voltage)
     vb: np.ndarray  # (n,) potential at b
+    trace: np.ndarray  # (n,) index of the trace; a trace's segments are consecutive
 
 
 def trace_potentials(coil) -> dict:
@@ -284,7 +289,7 @@ def _pieces(coil) -> _Pieces:
             continue
         v = v0 + (v1 - v0) * cum / cum[-1]
         n = int(keep.sum())
-        rows.append((np.full(n, tr.layer), p[:-1][keep], p[1:][keep], np.full(n, tr.width_mm), v[:-1][keep], v[1:][keep]))
+        rows.append((np.full(n, tr.layer), p[:-1][keep], p[1:][keep], np.full(n, tr.width_mm), v[:-1][keep], v[1:][keep], np.full(n, ti)))
     return _Pieces(*(np.concatenate(c) for c in zip(*rows)))
 
 
@@ -305,6 +310,49 @@ def sheet_heights_m(stackup) -> dict:
     for d in stackup.dielectric_mm:
         z.append(z[-1] - d * 1e-3)
     return {layer + 1: z[layer] for layer in range(stackup.n_layers)}
+
+
+def cut_positions(cum_mm, trace, cuts: int):
+    """Where to cut: stratified by trace, about ``cuts`` in all.
+
+    Each trace gets cuts in proportion to its length and at least one, so
+    short leads are never skipped nor over-weighted; within a trace the
+    positions follow the golden-ratio (Weyl) sequence, which does not
+    alias with the turn-by-turn periodicity of a spiral the way evenly
+    spaced cuts can.
+
+    Parameters
+    ----------
+    cum_mm : ndarray, shape (n + 1,)
+        Cumulative copper length at the start of each piece and the end.
+    trace : ndarray of int, shape (n,)
+        Trace of each piece (a trace's pieces are consecutive).
+    cuts : int
+        Cuts wanted in all.
+
+    Returns
+    -------
+    s_mm : ndarray, shape (m,)
+        Positions along the cumulative length.
+    ds_mm : ndarray, shape (m,)
+        Copper length each cut stands for; they sum to the total length.
+
+    >>> s, ds = cut_positions(np.array([0.0, 10.0, 40.0]), np.array([0, 1]), 4)
+    >>> np.round(s, 3).tolist(), ds.tolist()
+    ([5.0, 25.0, 13.541, 32.082], [10.0, 10.0, 10.0, 10.0])
+    """
+    golden = (np.sqrt(5.0) - 1.0) / 2.0
+    total = cum_mm[-1]
+    starts = np.concatenate([[0], np.nonzero(trace[1:] != trace[:-1])[0] + 1])
+    ends = np.append(starts[1:], len(trace))
+    s_out, ds_out = [], []
+    for a, b in zip(starts, ends):
+        lt = cum_mm[b] - cum_mm[a]
+        n = max(1, int(round(cuts * lt / total)))
+        u = (0.5 + golden * np.arange(n)) % 1.0
+        s_out.append(cum_mm[a] + u * lt)
+        ds_out.append(np.full(n, lt / n))
+    return np.concatenate(s_out), np.concatenate(ds_out)
 
 
 def capacitance(coil, *, cuts: int = DEFAULT_CUTS, cells: int = 10) -> CapacitanceEstimate:
@@ -337,12 +385,11 @@ def capacitance(coil, *, cuts: int = DEFAULT_CUTS, cells: int = 10) -> Capacitan
     vec = pc.b - pc.a
     length = np.hypot(vec[:, 0], vec[:, 1])
     cum = np.concatenate([[0.0], np.cumsum(length)])
-    total_mm = cum[-1]
-    ds_m = total_mm / cuts * 1e-3
     gap_floor = 2.0 * st.thickness_mm
     t2t: dict = {}
     l2l: dict = {}
-    for s_mm in (np.arange(cuts) + 0.5) * total_mm / cuts:
+    for s_mm, ds_mm in zip(*cut_positions(cum, pc.trace, cuts)):
+        ds_m = ds_mm * 1e-3
         i = int(np.clip(np.searchsorted(cum, s_mm, side="right") - 1, 0, len(length) - 1))
         frac = (s_mm - cum[i]) / length[i]
         tan = vec[i] / length[i]
@@ -411,12 +458,12 @@ def _cut(pc: _Pieces, i: int, p, tan, gap_max_mm: float):
     half = pc.width[idx] / 2
     x0, x1, layer = s_i - half, s_i + half, pc.layer[idx]
     own = idx == i
-    # Merge strips that overlap on the same layer (joined traces).
+    # Merge strips that overlap or touch on the same layer (joined traces).
     order = np.lexsort((x0, layer))
     x0, x1, layer, v, own = x0[order], x1[order], layer[order], v[order], own[order]
     keep_x0, keep_x1, keep_l, keep_v, keep_own = [], [], [], [], []
     for k in range(len(x0)):
-        if keep_l and keep_l[-1] == layer[k] and x0[k] < keep_x1[-1]:
+        if keep_l and keep_l[-1] == layer[k] and x0[k] <= keep_x1[-1]:
             keep_x1[-1] = max(keep_x1[-1], x1[k])
             keep_v[-1] = 0.5 * (keep_v[-1] + v[k])
             keep_own[-1] = keep_own[-1] or own[k]
