@@ -11,8 +11,8 @@ DC, trace segment
     R = rho * l / (w * t), l the centreline length. At a sharp 90 degree
     corner the centreline rule counts the corner square as one square where
     the true value is about 0.56 squares (common practice), so square
-    spirals with narrow traces come out slightly high (well under 1 % for
-    traces longer than a few widths per side).
+    spirals come out high by about 0.44 / N for sides N widths long (under
+    1 % once the sides are longer than about 50 widths).
 DC, via barrel
     A plated annulus of outer diameter ``drill`` and wall ``plating``:
     R = rho * l / (pi * p * (d - p)), l the distance between the copper
