@@ -20,9 +20,9 @@ that *face* each other, the way layout rule checkers do it:
   extent along its length, has non-zero length (the *projection* metric);
 * the distance of a facing pair is the smallest distance between those
   two parts. A pair closer than the limit is a violation;
-* when both edges belong to one ring, the two closest points must also lie
-  more than ``PATH_FACTOR`` (3) times their distance apart along the ring,
-  the short way round. Otherwise they are the two sides of one corner (a
+* when both edges belong to one ring, the middles of the two facing parts
+  must also lie more than ``PATH_FACTOR`` (3) times their distance apart
+  along the ring, the short way round. Otherwise they are the two sides of one corner (a
   lead joining its own turn at an angle, a polyline bend next to it), not
   a narrow place. A wedge of space or copper sharper than about 39 degrees
   (2 asin(1/3)) still counts: it is narrower than the limit over a length
@@ -248,12 +248,15 @@ def facing_pairs(edges: Edges, i, j, *, side: int):
     pb = np.where(from_a[:, None], on_other, own)
     # Same ring: the two points must be far apart along the boundary, or
     # they are the two sides of a corner, not a narrow place.
+    # Judged at the middles of the two facing parts: at a sharp wedge the
+    # closest points meet at the apex, where both distances vanish.
     same = edges.ring[i] == edges.ring[j]
-    sa = edges.s0[i] + np.hypot(*(pa - a0).T)
-    sb = edges.s0[j] + np.hypot(*(pb - b0).T)
+    ma, mb = (A0 + A1) / 2, (B0 + B1) / 2
+    sa = edges.s0[i] + np.hypot(*(ma - a0).T)
+    sb = edges.s0[j] + np.hypot(*(mb - b0).T)
     path = np.abs(sa - sb)
     path = np.minimum(path, edges.ring_length[i] - path)
-    keep &= ~same | (path > PATH_FACTOR * d + 1e-6)
+    keep &= ~same | (path > PATH_FACTOR * np.hypot(*(mb - ma).T) + 1e-6)
     d = np.where(keep, d, np.inf)
     quad = np.stack([A0, A1, B1, B0], axis=1)
     return keep, d, pa, pb, quad

@@ -222,7 +222,8 @@ def load_rules(name_or_path=None, *, base_dir=None) -> RuleSet:
     ----------
     name_or_path : str, Path, RuleSet or None
         ``None`` gives the default ('standard'); a bare name picks
-        ``templates/rules-<name>.toml``; anything with a path separator or a
+        ``templates/rules-<name>.toml`` (the template's own name,
+        'rules-<name>', works too); anything with a path separator or a
         ``.toml`` ending is read as a file (relative to ``base_dir`` when
         given, e.g. the folder of the design file that names it). A
         :class:`RuleSet` is returned unchanged.
@@ -248,7 +249,8 @@ def load_rules(name_or_path=None, *, base_dir=None) -> RuleSet:
     else:
         from ..templates import TEMPLATE_DIR
 
-        path = TEMPLATE_DIR / f"{RULE_PREFIX}{text}.toml"
+        stem = text[len(RULE_PREFIX) :] if text.startswith(RULE_PREFIX) else text  # 'rules-fine' names the template file
+        path = TEMPLATE_DIR / f"{RULE_PREFIX}{stem}.toml"
         if not path.is_file():
             names = rule_set_names()
             raise SpecError(f"no rule set named {text!r}; bundled rule sets: {', '.join(names) or '(none)'}; or give a path to a TOML file")
