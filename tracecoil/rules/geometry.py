@@ -325,12 +325,32 @@ def cluster_pairs(quad: np.ndarray, link_mm: float = _LINK_MM) -> np.ndarray:
     return label
 
 
+def _trim(p0, p1, q0, q1, limit_mm):
+    """The part of each segment p0 -> p1 closer than ``limit_mm`` to the
+    line through q0, q1 (the distance is linear along p)."""
+    t = q1 - q0
+    n = np.stack([-t[:, 1], t[:, 0]], axis=1) / np.hypot(*t.T)[:, None]
+    h0 = np.abs(np.einsum("ij,ij->i", p0 - q0, n))
+    h1 = np.abs(np.einsum("ij,ij->i", p1 - q0, n))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        cut = np.clip((limit_mm - h0) / (h1 - h0), 0.0, 1.0)
+    cut = np.where(np.isfinite(cut), cut, 1.0)
+    lo = np.where(h0 < limit_mm, 0.0, cut)
+    hi = np.where(h1 < limit_mm, 1.0, cut)
+    d = p1 - p0
+    return p0 + lo[:, None] * d, p0 + hi[:, None] * d
+
+
 def _pair_findings(scan: PairScan, limit_mm: float, *, rule: str, layer: str, describe) -> list[Finding]:
     bad = scan.dist < limit_mm - LIMIT_TOL_MM
     if not bad.any():
         return []
     d, pa, pb, quad = scan.dist[bad], scan.pa[bad], scan.pb[bad], scan.quad[bad]
-    labels = cluster_pairs(quad)
+    # cut each pair down to the stretch that breaks the limit, so separate
+    # narrow places along one long gap stay separate clusters
+    a0, a1 = _trim(quad[:, 0], quad[:, 1], quad[:, 3], quad[:, 2], limit_mm - LIMIT_TOL_MM)
+    b1, b0 = _trim(quad[:, 2], quad[:, 3], quad[:, 0], quad[:, 1], limit_mm - LIMIT_TOL_MM)
+    labels = cluster_pairs(np.stack([a0, a1, b1, b0], axis=1))
     out = []
     for lab in range(labels.max() + 1):
         idx = np.flatnonzero(labels == lab)

@@ -18,6 +18,7 @@ PICTURE_FORMATS = ("svg", "png")
 REPORT_FORMATS = ("txt", "json", "svg", "png")
 MARK_COLOUR = "#C00000"
 _MAX_LISTED = 40  # findings listed beside the picture
+MAX_PER_RULE = 25  # findings of one rule on one layer spelled out in the text report
 
 
 def _fmt(v, unit="mm"):
@@ -59,7 +60,15 @@ def text_report(result: CheckResult) -> str:
         lines.append(f"  spacing for {result.voltage_v:g} V working voltage per IPC-2221 Table 6-1 ({r.condition} outer layers)")
     if not result.ok:
         lines += ["", "Violations"]
+        shown: dict = {}
         for k, f in enumerate(_sorted(result), 1):
+            key = (f.rule, f.layer)
+            shown[key] = shown.get(key, 0) + 1
+            if shown[key] > MAX_PER_RULE:
+                if shown[key] == MAX_PER_RULE + 1:
+                    more = sum(1 for g in result.findings if (g.rule, g.layer) == key) - MAX_PER_RULE
+                    lines.append(f"       ... and {more} more {f.rule} on {f.layer} (all are in the JSON report and the picture)")
+                continue
             rel = "<=" if f.rule == "TEMPERATURE_RISE" else ">="
             lines.append(
                 f"  {k:>3}. {f.rule} on {f.layer} at ({f.at[0]:.3f}, {f.at[1]:.3f}) mm: measured {_fmt(f.measured, f.unit)} {f.unit}, "
