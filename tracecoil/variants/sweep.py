@@ -59,18 +59,19 @@ MAX_ERROR_CHARS = 500
 DEFAULT_METRICS = ("inductance", "resistance_dc", "rules")
 
 
-def build_variant(design: Design, params: dict):
+def build_variant(design: Design, params: dict, options: MetricOptions):
     """Default variant builder: the design with the varied keys changed;
     the coil is built by the metrics."""
-    return apply_params(design, params), None
+    return apply_params(design, params), None, options
 
 
 @dataclass(frozen=True)
 class Task:
     """Everything a worker needs besides the batch (picklable).
 
-    ``builder(design, params) -> (design, coil or None)`` makes one
-    variant; it must be a module-level function.
+    ``builder(design, params, options) -> (design, coil or None,
+    options)`` makes one variant (the options may change per variant, e.g.
+    a tank capacitor's tolerance); it must be a module-level function.
     """
 
     design: Design
@@ -97,8 +98,8 @@ def run_batch(task: Task, batch: list) -> list[dict]:
     for vid, params in batch:
         rec = {ID_COLUMN: vid, **params}
         try:
-            design, coil = task.builder(task.design, params)
-            rec.update(evaluate(design, task.metrics, options=task.options, coil=coil))
+            design, coil, options = task.builder(task.design, params, task.options)
+            rec.update(evaluate(design, task.metrics, options=options, coil=coil))
             rec[ERROR_COLUMN] = None
         except MetricUnavailable:
             raise  # not the variant's fault: stop the sweep
