@@ -218,3 +218,15 @@ def test_size_helpers_on_a_sampled_spiral():
     assert_allclose([d_out, d_in], [2 * pedal(10) + 0.3, 2 * pedal(9) - 0.3], atol=1.5e-4)
     assert_allclose(winding_sizes(pts[::-1], 0.3), [d_out, d_in], rtol=1e-12)
     assert_allclose(fill_ratio(20.3, 17.7), 2.6 / 38.0, rtol=1e-15)
+
+
+@pytest.mark.parametrize("corner", ["round", "chamfer"])
+def test_sizes_across_flats_ignore_corner_treatment(corner):
+    # Rounded or chamfered corners must not change d_out and d_in measured
+    # across flats: the same numbers as the sharp spiral (Mohan et al. 1999
+    # definitions, as in test_sizes_of_a_square_spiral_follow_mohan).
+    kw = dict(shape="square", outer_mm=10.0, turns=9.5, width_mm=0.15, gap_mm=0.15)
+    sharp = summary(tracecoil.spiral(**kw))["layers"][0]
+    treated = summary(tracecoil.spiral(corner=corner, corner_mm=0.3, **kw))["layers"][0]
+    assert_allclose([treated["outer_mm"], treated["inner_mm"]], [sharp["outer_mm"], sharp["inner_mm"]], rtol=1e-12)
+    assert_allclose(treated["outer_mm"], 10.0, rtol=1e-12)

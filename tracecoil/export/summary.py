@@ -58,7 +58,7 @@ def winding_turns(points_mm: np.ndarray) -> float:
     return float(abs(phi[-1] - phi[0]) / (2 * np.pi))
 
 
-def winding_sizes(points_mm: np.ndarray, width_mm: float) -> tuple[float, float]:
+def winding_sizes(points_mm: np.ndarray, width_mm: float, *, side_normals_rad=None) -> tuple[float, float]:
     """(d_out, d_in) of a winding in mm, as defined in the module docstring.
 
     Parameters
@@ -67,6 +67,14 @@ def winding_sizes(points_mm: np.ndarray, width_mm: float) -> tuple[float, float]
         Centreline (mm), centred on the origin, from either end.
     width_mm : float
         Trace width (mm).
+    side_normals_rad : array_like or None
+        Polygon spirals (possibly with rounded or chamfered corners): the
+        polar angles of the side normals. Sizes are then measured across
+        flats with the support function h(u) = max_i p_i . u of the
+        centreline: d_out = 2 max_j h(n_j) + w over the side normals, and
+        d_in = 2 max_j h_last(n_j) - w over the innermost full turn. Corner
+        arcs, whose chords' lines would otherwise count, play no part; for
+        sharp corners this equals the segment-line definition.
 
     >>> r = 10 - 0.5 * np.linspace(0, 3, 3001)      # 3 turns, pitch 0.5 mm
     >>> a = 2 * np.pi * np.linspace(0, 3, 3001)
@@ -85,9 +93,24 @@ def winding_sizes(points_mm: np.ndarray, width_mm: float) -> tuple[float, float]
     h = np.abs(p[:-1, 0] * seg[:, 1] - p[:-1, 1] * seg[:, 0])[keep] / length[keep]
     # segments ending within one turn of the inner end form the innermost turn
     last_turn = (np.abs(phi[-1] - phi[1:]) < 2 * np.pi)[keep]
+    if side_normals_rad is not None:
+        ang = np.asarray(side_normals_rad, float)
+        u = np.stack([np.cos(ang), np.sin(ang)], axis=1)
+        inner_pts = p[np.abs(phi[-1] - phi) <= 2 * np.pi + 1e-12]
+        return float(2 * (p @ u.T).max() + width_mm), float(2 * (inner_pts @ u.T).max(axis=0).max() - width_mm)
     d_out = 2 * h.max() + width_mm
     d_in = 2 * h[last_turn].max() - width_mm
     return float(d_out), float(d_in)
+
+
+def _side_normals(coil):
+    """Side-normal angles of a polygon-family spiral (the generator puts a
+    flat facing +x), or None for circles and custom paths."""
+    spec = coil.spec
+    n = getattr(spec, "n_sides", None)
+    if n is None or spec.corner == "sharp":
+        return None  # the segment-line definition is exact there
+    return 2 * np.pi * np.arange(n) / n
 
 
 def fill_ratio(d_out: float, d_in: float) -> float:
@@ -178,7 +201,7 @@ def summary(coil: Coil, *, outlines=None) -> dict:
             "direction": None,
         }
         if windings:
-            sizes = [winding_sizes(t.points_mm, t.width_mm) for t in windings]
+            sizes = [winding_sizes(t.points_mm, t.width_mm, side_normals_rad=_side_normals(coil)) for t in windings]
             turns = [winding_turns(t.points_mm) for t in windings]
             per_winding.extend(turns)
             d_out = max(s[0] for s in sizes)
