@@ -354,7 +354,11 @@ def _pair_findings(scan: PairScan, limit_mm: float, *, rule: str, layer: str, de
     out = []
     for lab in range(labels.max() + 1):
         idx = np.flatnonzero(labels == lab)
-        k = idx[np.argmin(d[idx])]
+        # the narrowest pair; among equal ones (parallel edges) the one
+        # lowest in x, then y, so the place does not depend on vertex order
+        tie = idx[d[idx] <= d[idx].min() + 1e-9]
+        mid = np.round((pa[tie] + pb[tie]) / 2, 6)
+        k = tie[np.lexsort((mid[:, 1], mid[:, 0]))[0]]
         a, b = pa[k], pb[k]
         at = (float((a[0] + b[0]) / 2), float((a[1] + b[1]) / 2))
         out.append(
@@ -576,12 +580,16 @@ def edge_findings(copper, board, *, layer: str, clearance_mm: float) -> list[Fin
     near = copper.intersection(zone).union(copper.difference(board))
     out = []
     for piece in as_multipolygon(near).geoms:
-        line = shapely.shortest_line(piece, edge)
-        a, b = np.asarray(line.coords)
-        gap = float(np.hypot(*(b - a)))
+        gap = float(piece.distance(edge))
         outside = not board.buffer(1e-9).contains(piece)
         if outside:
             gap = 0.0 if piece.intersects(edge) else -gap
+        # a place that does not depend on vertex order: the middle of the
+        # copper lying within the measured distance (+1 um) of the edge
+        close = piece.intersection(edge.buffer(abs(gap) + 1e-3, quad_segs=4))
+        c = close.centroid if not close.is_empty else piece.centroid
+        e = edge.interpolate(edge.project(c))
+        a, b = np.array([c.x, c.y]), np.array([e.x, e.y])
         if gap < clearance_mm - LIMIT_TOL_MM:
             where = "crosses the board edge" if gap == 0.0 and outside else ("lies outside the board" if gap < 0 else f"is {gap:.4f} mm from the board edge")
             out.append(
