@@ -341,6 +341,17 @@ def _trim(p0, p1, q0, q1, limit_mm):
     return p0 + lo[:, None] * d, p0 + hi[:, None] * d
 
 
+def _middle_of_narrowest(quad, dist):
+    """Closest points of one facing pair, taken in the middle of the
+    stretch where the two parts are at (within 1 nm of) their smallest
+    distance: for parallel edges, the middle of their overlap."""
+    A0, A1, B1, B0 = (quad[k][None, :] for k in range(4))
+    lo, hi = _trim(A0, A1, B0, B1, dist + 1e-6)
+    a = ((lo + hi) / 2)[0]
+    _, b = _point_segment(a[None, :], B0, B1)
+    return a, b[0]
+
+
 def _pair_findings(scan: PairScan, limit_mm: float, *, rule: str, layer: str, describe) -> list[Finding]:
     bad = scan.dist < limit_mm - LIMIT_TOL_MM
     if not bad.any():
@@ -359,7 +370,7 @@ def _pair_findings(scan: PairScan, limit_mm: float, *, rule: str, layer: str, de
         tie = idx[d[idx] <= d[idx].min() + 1e-9]
         mid = np.round((pa[tie] + pb[tie]) / 2, 6)
         k = tie[np.lexsort((mid[:, 1], mid[:, 0]))[0]]
-        a, b = pa[k], pb[k]
+        a, b = _middle_of_narrowest(quad[k], d[k])
         at = (float((a[0] + b[0]) / 2), float((a[1] + b[1]) / 2))
         out.append(
             Finding(
