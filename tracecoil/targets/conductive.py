@@ -548,22 +548,33 @@ def _bar_table(length, width, tc, n_along, n_lat):
 
 
 def _filament_average(d_along, d_lat, length, w1, w2, tc, xw, ww, xt, wt):
-    """Gauss-Legendre average of Neumann's formula over two parallel bars."""
-    n = len(d_along)
-    out = np.zeros(n)
-    for a, wa in zip(xw - 0.5, ww):
-        for b, wb in zip(xw - 0.5, ww):
-            for c, wc in zip(xt - 0.5, wt):
-                for e, we in zip(xt - 0.5, wt):
-                    y1 = a * w1
-                    y2 = d_lat + b * w2
-                    z = (e - c) * tc
-                    p1 = np.column_stack([np.zeros(n), np.full(n, y1), np.zeros(n)])
-                    q1 = p1 + np.array([length, 0.0, 0.0])
-                    p2 = np.column_stack([d_along, y2, np.full(n, z)])
-                    q2 = p2 + np.array([length, 0.0, 0.0])
-                    out += wa * wb * wc * we * kernels.filament_mutual(p1, q1, p2, q2)
-    return out
+    """Gauss-Legendre average of Neumann's formula over two parallel bars (H).
+
+    Equal parallel filaments of length l, starts s apart along them, at
+    distance d: M = mu0/(4 pi) [G(s + l) - 2 G(s) + G(s - l)],
+    G(u) = u asinh(u/d) - sqrt(u^2 + d^2) (Grover 1946, from memory; the
+    parallel-filament form). Collinear filaments
+    (d = 0, never overlapping here) use the limit G(u) = |u| ln|u| - |u|.
+    Used only for bars three or more cells apart, where s/l stays below a
+    few hundred and the second difference keeps about 11 digits.
+    """
+    oy1 = (xw - 0.5) * w1
+    oy2 = (xw - 0.5) * w2
+    oz = (xt - 0.5) * tc
+    dy = d_lat[:, None, None] + oy2[None, None, :] - oy1[None, :, None]  # (n, a, b)
+    wy = ww[:, None] * ww[None, :]
+    dz = oz[None, :] - oz[:, None]  # (c, e)
+    wz = wt[:, None] * wt[None, :]
+    d = np.sqrt(dy[..., None, None] ** 2 + dz[None, None, None] ** 2)  # (n, a, b, c, e)
+    s = d_along[:, None, None, None, None]
+    tot = np.zeros_like(d)
+    for u, cf in ((s + length, 1.0), (s, -2.0), (s - length, 1.0)):
+        u = np.broadcast_to(u, d.shape)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            g = np.where(d > 0, u * np.arcsinh(u / np.where(d > 0, d, 1.0)) - np.sqrt(u * u + d * d),
+                         np.where(u != 0, np.abs(u) * np.log(np.abs(np.where(u != 0, u, 1.0))), 0.0) - np.abs(u))
+        tot += cf * g
+    return kernels.K_MU * np.einsum("nabce,ab,ce->n", tot, wy, wz)
 
 
 def _loop_inductance(mesh: PlateMesh, tc, *, block=512):
