@@ -92,10 +92,25 @@ def core_inductance(coil):
     return _inductance_model().inductance(coil)
 
 
+def filament_model_available() -> bool:
+    """True when the partial-inductance model's AC solver (skin and
+    proximity effect, ``tracecoil.physics.impedance``) is installed."""
+    import importlib.util
+
+    return importlib.util.find_spec("tracecoil.physics.impedance") is not None
+
+
+METHOD_FILAMENT = "filament model (skin and proximity effect)"
+METHOD_CLOSED = "closed-form plate model (skin effect only, a lower bound)"
+
+
 def core_impedance(coil, freqs_hz, *, temperature_c=20.0):
-    """L(f) (H) and R(f) (ohm) from the partial-inductance model's AC
-    solution (filaments across each cross-section: skin and proximity
-    effect), copper at ``temperature_c``.
+    """L(f) (H) and R(f) (ohm) with copper at ``temperature_c``.
+
+    From the partial-inductance model's AC solution (filaments across each
+    cross-section: skin and proximity effect) when it is available;
+    otherwise L(f) is the low-frequency L and R(f) the closed-form plate
+    model, and ``method`` says so.
 
     Parameters
     ----------
@@ -104,15 +119,21 @@ def core_impedance(coil, freqs_hz, *, temperature_c=20.0):
     Returns
     -------
     l_h, r_ohm : ndarray, shape (n,)
+    method : str
+        :data:`METHOD_FILAMENT` or :data:`METHOD_CLOSED`.
     """
-    ind = _inductance_model()
-    rho = copper_resistivity(temperature_c)
     freqs = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
     l_h, r_ohm = np.empty(len(freqs)), np.empty(len(freqs))
+    if not filament_model_available():
+        l_h[:] = float(core_inductance(coil).inductance_h)
+        r_ohm[:] = [_res.ac_resistance(coil, f, temperature_c=temperature_c) for f in freqs]
+        return l_h, r_ohm, METHOD_CLOSED
+    ind = _inductance_model()
+    rho = copper_resistivity(temperature_c)
     for k, f in enumerate(freqs):
         res = ind.inductance(coil, freq_hz=float(f), resistivity_ohm_m=rho)
         l_h[k], r_ohm[k] = res.inductance_h, res.resistance_ohm
-    return l_h, r_ohm
+    return l_h, r_ohm, METHOD_FILAMENT
 
 
 # ----------------------------------------------------------------------------
@@ -344,8 +365,9 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
     l_dc = float(l_model.inductance_h)
     r_dc = _res.dc_resistance(coil, temperature_c=t)
     r_closed = _res.ac_resistance(coil, f, temperature_c=t)
-    (l_f,), (r_f,) = core_impedance(coil, [f], temperature_c=t)
-    method = "filament model (skin and proximity effect)"
+    (l_f,), (r_f,), method = core_impedance(coil, [f], temperature_c=t)
+    if method != METHOD_FILAMENT:
+        notes.append("R(f) and L(f): the filament AC solver is not available; closed-form skin effect only")
     est = _cap.capacitance(coil, cuts=capacitance_cuts)
     c = est.total_f
     # The SRF uses the same L as the SPICE subcircuit: L(f) at the frequency.
@@ -363,7 +385,7 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
             f"the frequency is above a third of the estimated self-resonance ({srf:.4g} Hz): the apparent inductance "
             "and Q depend on the capacitance estimate (+-30-50 %)"
         )
-    if r_f < 0.98 * r_closed:
+    if method == METHOD_FILAMENT and r_f < 0.98 * r_closed:
         notes.append("the filament model's R(f) is below the closed-form plate model; check its discretisation")
 
     tank = None
@@ -465,12 +487,14 @@ class Sweep:
     capacitance_f: float
     srf_hz: float
     resistance_dc_ohm: float
+    method: str = METHOD_FILAMENT
 
     def to_dict(self) -> dict:
         def arr(a):
             return [float(x) if math.isfinite(x) else None for x in np.asarray(a, float)]
 
         return {
+            "method": self.method,
             "frequency_hz": arr(self.frequency_hz),
             "inductance_h": arr(self.inductance_h),
             "resistance_ohm": arr(self.resistance_ohm),
@@ -521,7 +545,7 @@ def frequency_sweep(coil, freqs_hz, *, temperature_c=20.0, capacitance_f=None) -
     for x in f:
         _check_freq(x, "freqs_hz")
     c = _cap.capacitance(coil).total_f if capacitance_f is None else float(capacitance_f)
-    l_f, r_f = core_impedance(coil, f, temperature_c=t)
+    l_f, r_f, method = core_impedance(coil, f, temperature_c=t)
     r_cf = np.array([_res.ac_resistance(coil, x, temperature_c=t) for x in f])
     l0 = float(core_inductance(coil).inductance_h)
     return Sweep(
@@ -535,6 +559,7 @@ def frequency_sweep(coil, freqs_hz, *, temperature_c=20.0, capacitance_f=None) -
         capacitance_f=c,
         srf_hz=float(_cc.resonant_frequency(l0, c)) if c > 0 else math.inf,
         resistance_dc_ohm=_res.dc_resistance(coil, temperature_c=t),
+        method=method,
     )
 
 
@@ -591,14 +616,15 @@ def plot_sweep(sweep: Sweep, path, *, title: str = "", mark_hz: float | None = N
     f = sweep.frequency_hz
     fig = Figure(figsize=(7.5, 8.5), dpi=120)
     ax_l, ax_r, ax_q = fig.subplots(3, 1, sharex=True)
-    ax_l.plot(f, sweep.inductance_h * 1e6, "o-", ms=3, label="L(f), partial-inductance model")
+    ax_l.plot(f, sweep.inductance_h * 1e6, "o-", ms=3, label="L(f), partial-inductance model" if sweep.method == METHOD_FILAMENT else "L, partial-inductance model (low f)")
     below = f < 0.97 * sweep.srf_hz
     ax_l.plot(f[below], sweep.apparent_inductance_h[below] * 1e6, "--", label="apparent L at the terminals (with C)")
     ax_l.set_ylabel("inductance (uH)")
     # The apparent L grows without bound at the SRF: keep the model's L readable.
     ax_l.set_ylim(0, 2.5 * float(np.nanmax(sweep.inductance_h)) * 1e6)
-    ax_r.loglog(f, sweep.resistance_ohm, "o-", ms=3, label="R(f), filament model")
-    ax_r.loglog(f, sweep.resistance_closed_form_ohm, "--", label="R(f), plate skin-effect model")
+    if sweep.method == METHOD_FILAMENT:
+        ax_r.loglog(f, sweep.resistance_ohm, "o-", ms=3, label="R(f), filament model")
+    ax_r.loglog(f, sweep.resistance_closed_form_ohm, "--", label="R(f), plate skin-effect model (lower bound)")
     ax_r.axhline(sweep.resistance_dc_ohm, color="0.4", lw=0.8, label="R DC")
     ax_r.set_ylabel("resistance (ohm)")
     ax_q.plot(f, sweep.q, "o-", ms=3, label="Q = wL/R")
