@@ -11,3 +11,4 @@ from .export import build, summary
 from .generators import build_coil, coil_from_design, custom_coil, max_turns, spiral
 from .layout import Coil, Stackup, Step, Terminal, Trace, Via
 from .predict import Prediction, frequency_sweep, predict
+from .rules import CheckResult, Finding, RuleSet, check, load_rules
