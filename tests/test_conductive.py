@@ -286,3 +286,32 @@ def test_plate_from_template_table():
     p2, o2 = plate_from_table({"kind": "plate", "outline_mm": square(3), "thickness_mm": 1,
                                "conductivity_s_m": 2e7, "tank_capacitance_f": 1e-9, "cell_mm": "0.2 mm"})
     assert p2.sigma == 2e7 and o2 == {"tank_capacitance_f": 1e-9, "cell_mm": 0.2}
+
+
+def test_signal_dispatch_with_a_linear_motion(tmp_path):
+    # The package's signal() hands a Plate to plate_signal; a Linear motion
+    # with a speed gives a time axis, one without gives a position sweep.
+    from tracecoil.targets import Linear, signal
+
+    plate = Plate(square(6), 0.5, material="copper")
+    zc = LOOP.z_mm(1)
+    kw = dict(freq_hz=1e6, cell_mm=0.6, coil_inductance_h=1e-7, coil_resistance_ohm=0.1)
+    moving = Linear(start_mm=(-10, 0, zc + 1.0), direction=(1, 0, 0), speed_m_s=0.5, distance_mm=20)
+    r = signal(LOOP, plate, moving, samples=11, **kw)
+    assert_allclose(r.time_s[-1], 20e-3 / 0.5, rtol=1e-12)
+    assert_allclose(r.path_mm, np.linspace(0, 20, 11), atol=1e-9)
+    sweep = plate_signal(LOOP, plate, Linear(start_mm=(-10, 0, zc + 1.0), direction=(1, 0, 0), distance_mm=20),
+                         samples=11, **kw)
+    assert sweep.time_s is None
+    assert_allclose(sweep.delta_l_h, r.delta_l_h, rtol=1e-12)
+    with pytest.raises(SpecError, match="load_ohm"):
+        signal(LOOP, plate, moving, samples=3, load_ohm=10.0, **kw)
+    files = r.write(tmp_path, "tab")
+    head = files["csv"].read_text().splitlines()[0].split(",")
+    assert head[:2] == ["time_s", "x_mm"] and "delta_l_h" in head
+    import json
+
+    d = json.loads(files["json"].read_text())
+    assert len(d["inductance_h"]) == 11 and d["frequency_shift_hz"] is None
+    assert files["png"].stat().st_size > 1000
+    assert any("dL" in line for line in r.summary_lines())

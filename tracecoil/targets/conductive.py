@@ -132,6 +132,7 @@ DEFAULT_MAX_CELLS = 1500
 NEAR_CELLS = 3  # exact Hoer & Love bars up to this many cells apart
 GRID_MIN_POSES = 8  # poses sharing height and turn before the spline route pays
 GRID_MAX_POINTS = 250_000  # per height level
+DEFAULT_POSES = 101  # poses taken from a motion object when it does not say
 
 
 def _material(name):
@@ -833,16 +834,22 @@ def _layer_distance(model: PlateModel, cd: Conductors, positions_mm):
 # poses from a motion
 # ----------------------------------------------------------------------------
 
-def poses(motion, plate: Plate):
+def poses(motion, plate: Plate, *, samples=None):
     """Plate poses from a motion, an array of positions or None.
 
     Parameters
     ----------
     motion : None, array_like (3,) or (p, 3), or a motion object
         None: the plate's own position. An array: positions (mm) of the
-        plate frame origin with z the bottom face. A motion object: its
-        sampled positions (``sample()`` returning an object with
-        ``time_s`` and ``position_mm``, or attributes of those names).
+        plate frame origin (x, y) with z its bottom face. A motion
+        (:class:`tracecoil.targets.motion.Linear`, ``Circular``, ``Table``):
+        ``samples`` poses evenly spaced in time over its duration (or along
+        its path when it has no speed); the motion's position is the plate
+        frame origin with z the bottom face, and its turns (about z only)
+        add to the plate's ``rotation_deg``.
+    samples : int, optional
+        Number of poses taken from a motion object (default: the motion's
+        own ``samples``, else :data:`DEFAULT_POSES`).
 
     Returns
     -------
@@ -851,26 +858,37 @@ def poses(motion, plate: Plate):
     time_s : ndarray, shape (p,) or None
     """
     time_s = None
-    rot = None
+    turns = None
     if motion is None:
         pos = np.array([plate.position_mm], float)
     elif isinstance(motion, (list, tuple, np.ndarray)):
         pos = np.asarray(motion, float)
         if pos.ndim == 1:
             pos = pos.reshape(1, -1)
+    elif hasattr(motion, "path") and hasattr(motion, "poses"):
+        n = samples if samples is not None else (getattr(motion, "samples", None) or DEFAULT_POSES)
+        if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 1:
+            raise SpecError(f"samples must be a positive integer; got {n!r}")
+        duration = getattr(motion, "duration_s", None)
+        if duration is not None:
+            time_s = np.linspace(0.0, float(duration), int(n))
+            pos, turns = motion.poses(time_s)
+        else:
+            pos, turns = motion.path(int(n))
+        pos = np.asarray(pos, float)
     else:
-        src = motion.sample() if hasattr(motion, "sample") else motion
-        if not hasattr(src, "position_mm"):
-            raise SpecError(f"motion must be an array of positions (mm) or a motion object; got {type(motion).__name__}")
-        pos = np.asarray(src.position_mm, float)
-        time_s = getattr(src, "time_s", None)
-        rot = getattr(src, "rotation_deg", None)
+        raise SpecError(f"motion must be positions (mm), a Linear, Circular or Table motion, or None; "
+                        f"got {type(motion).__name__}")
     if pos.ndim != 2 or pos.shape[1] != 3 or len(pos) == 0 or not np.all(np.isfinite(pos)):
         raise SpecError(f"positions must have shape (p, 3) in mm and be finite; got shape {pos.shape}")
-    rot_arr = np.full(len(pos), plate.rotation_deg)
-    if rot is not None:
-        rot_arr = rot_arr + np.broadcast_to(np.asarray(rot, float), (len(pos),))
-    return pos, rot_arr, (None if time_s is None else np.asarray(time_s, float))
+    rot = np.full(len(pos), plate.rotation_deg)
+    if turns is not None:
+        R = np.asarray(turns, float)
+        if not np.allclose(R[:, 2, :], [0.0, 0.0, 1.0], atol=1e-9):
+            raise SpecError("a plate may only turn about the z axis (it stays parallel to the board); "
+                            "use a motion whose axis is z or rotate_target = false")
+        rot = rot + np.degrees(np.arctan2(R[:, 1, 0], R[:, 0, 0]))
+    return pos, rot, time_s
 
 
 # ----------------------------------------------------------------------------
@@ -928,6 +946,8 @@ class PlateSignal:
     factor_seconds: float = 0.0
     solve_seconds: float = 0.0
     notes: tuple = field(default=())
+    name: str = "coil"
+    target: dict = field(default_factory=dict)
 
     def columns(self) -> dict:
         """Per-pose columns for a CSV table (name -> (p,) array)."""
@@ -935,7 +955,7 @@ class PlateSignal:
         if self.time_s is not None:
             cols["time_s"] = self.time_s
         cols.update({"x_mm": self.position_mm[:, 0], "y_mm": self.position_mm[:, 1], "z_mm": self.position_mm[:, 2],
-                     "path_mm": self.path_mm, "inductance_h": self.inductance_h,
+                     "rotation_deg": self.rotation_deg, "path_mm": self.path_mm, "inductance_h": self.inductance_h,
                      "resistance_ohm": self.resistance_ohm, "delta_l_h": self.delta_l_h,
                      "delta_r_ohm": self.delta_r_ohm, "dl_ds_h_per_mm": self.dl_ds_h_per_mm})
         if self.resonance_hz is not None:
@@ -945,21 +965,168 @@ class PlateSignal:
             cols.update(self.receiver.columns())
         return cols
 
-    def to_dict(self) -> dict:
-        """Plain JSON-ready dict (lists of floats)."""
-        d = {k: np.asarray(v).tolist() for k, v in self.columns().items()}
-        d["position_mm"] = self.position_mm.tolist()
-        d.update(freq_hz=self.freq_hz, free_inductance_h=self.free_inductance_h,
-                 free_resistance_ohm=self.free_resistance_ohm, tank_capacitance_f=self.tank_capacitance_f,
-                 frequency_shift_hz=None if self.frequency_shift_hz is None else self.frequency_shift_hz.tolist(),
-                 unknowns=self.unknowns, cell_mm=self.cell_mm, skin_depth_mm=self.skin_depth_mm,
-                 notes=list(self.notes))
+    def summary(self) -> dict:
+        """Scalar results (JSON-ready)."""
+        k = int(np.argmax(np.abs(self.delta_l_h)))
+        d = {
+            "name": self.name,
+            "samples": int(len(self.position_mm)),
+            "freq_hz": self.freq_hz,
+            "free_inductance_h": self.free_inductance_h,
+            "free_resistance_ohm": self.free_resistance_ohm,
+            "max_abs_delta_l_h": float(self.delta_l_h[k]),
+            "delta_r_ohm_there": float(self.delta_r_ohm[k]),
+            "position_mm_there": self.position_mm[k].tolist(),
+            "max_abs_dl_ds_h_per_mm": (None if np.all(np.isnan(self.dl_ds_h_per_mm))
+                                       else float(np.nanmax(np.abs(self.dl_ds_h_per_mm)))),
+            "skin_depth_mm": self.skin_depth_mm,
+            "mesh": {"unknowns": self.unknowns, "cell_mm": self.cell_mm, "factor_s": self.factor_seconds,
+                     "solve_s": self.solve_seconds},
+            "target": self.target,
+            "notes": list(self.notes),
+        }
+        if self.resonance_hz is not None:
+            d["tank_capacitance_f"] = self.tank_capacitance_f
+            d["max_abs_frequency_shift_hz"] = float(self.frequency_shift_hz[np.argmax(np.abs(self.frequency_shift_hz))])
+        if self.receiver is not None:
+            d["receiver"] = {"tx_current_a": self.receiver.tx_current_a,
+                             "free_emf_v": abs(self.receiver.free_emf_v),
+                             "min_emf_v": float(self.receiver.emf_amplitude_v.min()),
+                             "max_emf_v": float(self.receiver.emf_amplitude_v.max())}
         return d
+
+    def to_dict(self) -> dict:
+        """Scalars and the per-pose arrays (JSON-ready)."""
+        d = self.summary()
+        d.update({k: [None if not math.isfinite(x) else x for x in np.asarray(v, float).tolist()]
+                  for k, v in self.columns().items()})
+        d["position_mm"] = self.position_mm.tolist()
+        d["frequency_shift_hz"] = None if self.frequency_shift_hz is None else self.frequency_shift_hz.tolist()
+        return d
+
+    def summary_lines(self) -> list[str]:
+        """Plain-text report of the key numbers."""
+        t = self.target
+        k = int(np.argmax(np.abs(self.delta_l_h)))
+        lines = [
+            f"{self.name}: {t.get('material', '')} plate {t.get('thickness_mm', 0):.3g} mm thick at "
+            f"{self.freq_hz:.4g} Hz (skin depth {self.skin_depth_mm:.3g} mm), {len(self.position_mm)} poses",
+            f"  coil alone: L {self.free_inductance_h * 1e9:.5g} nH, R {self.free_resistance_ohm * 1e3:.4g} mOhm",
+            f"  largest change at {np.round(self.position_mm[k], 3).tolist()} mm: dL {self.delta_l_h[k] * 1e9:+.4g} nH "
+            f"({self.delta_l_h[k] / self.free_inductance_h * 100:+.3g} %), dR {self.delta_r_ohm[k] * 1e3:+.4g} mOhm",
+        ]
+        if not np.all(np.isnan(self.dl_ds_h_per_mm)):
+            lines.append(f"  steepest dL/ds {np.nanmax(np.abs(self.dl_ds_h_per_mm)) * 1e9:.4g} nH/mm")
+        if self.resonance_hz is not None:
+            j = int(np.argmax(np.abs(self.frequency_shift_hz)))
+            lines.append(f"  tank {self.tank_capacitance_f * 1e12:.4g} pF: resonance shift up to "
+                         f"{self.frequency_shift_hz[j]:+.5g} Hz")
+        if self.receiver is not None:
+            rx = self.receiver
+            lines.append(f"  receiver EMF (tx {rx.tx_current_a:g} A peak): {rx.emf_amplitude_v.min() * 1e3:.4g} to "
+                         f"{rx.emf_amplitude_v.max() * 1e3:.4g} mV peak, without target {abs(rx.free_emf_v) * 1e3:.4g} mV")
+            from .signal import CAUTION_EMF_V
+
+            if rx.emf_amplitude_v.max() > CAUTION_EMF_V:
+                lines.append(f"  caution: the receiver EMF exceeds {CAUTION_EMF_V:g} V; treat its terminals as "
+                             "hazardous and follow local electrical-safety codes and licensed practice")
+        lines.append(f"  mesh: {self.unknowns} loop currents, cells {self.cell_mm:.3g} mm; "
+                     f"factorised in {self.factor_seconds:.2g} s, poses in {self.solve_seconds:.2g} s")
+        lines += [f"  note: {n}" for n in self.notes]
+        return lines
+
+    def _csv_text(self) -> str:
+        import csv
+        import io
+
+        cols = self.columns()
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(list(cols))
+        for row in zip(*cols.values()):
+            w.writerow([format(float(v), ".10g") for v in row])
+        return buf.getvalue()
+
+    def write_csv(self, path):
+        """Write the per-pose table as CSV (atomic)."""
+        from ..export.atomic import write_text
+
+        return write_text(path, self._csv_text())
+
+    def write_json(self, path):
+        """Write :meth:`to_dict` as JSON (atomic)."""
+        from ..export.atomic import write_json
+
+        return write_json(path, self.to_dict())
+
+    def _plot(self, path, *, title: str = "") -> None:
+        from matplotlib.figure import Figure
+
+        x = self.time_s * 1e3 if self.time_s is not None else self.path_mm
+        xlabel = "time (ms)" if self.time_s is not None else "path (mm)"
+        rows = 3 if self.receiver is not None else 2
+        fig = Figure(figsize=(7.5, 2.6 * rows + 0.6), dpi=120)
+        axes = fig.subplots(rows, 1, sharex=True)
+        axes[0].plot(x, self.delta_l_h * 1e9, label="dL (nH)")
+        axes[0].plot(x, self.delta_r_ohm * 1e3, "--", label="dR (mOhm)")
+        axes[0].axhline(0.0, color="0.5", lw=0.6)
+        axes[0].set_ylabel("change")
+        if self.frequency_shift_hz is not None:
+            ax2 = axes[0].twinx()
+            ax2.plot(x, self.frequency_shift_hz / 1e3, ":", color="C3", label="tank shift (kHz)")
+            ax2.set_ylabel("tank shift (kHz)")
+        if self.receiver is not None:
+            ax = axes[1]
+            ax.plot(x, self.receiver.emf_amplitude_v * 1e3, label="receiver EMF (mV peak)")
+            ax.set_ylabel("EMF (mV)")
+            axp = ax.twinx()
+            axp.plot(x, self.receiver.emf_phase_deg, ":", color="C2", label="phase (deg)")
+            axp.set_ylabel("phase (deg)")
+        for k, lab in enumerate("xyz"):
+            axes[-1].plot(x, self.position_mm[:, k], label=lab)
+        axes[-1].set_ylabel("plate position (mm)")
+        axes[-1].set_xlabel(xlabel)
+        for ax in axes:
+            ax.grid(True, alpha=0.3)
+            ax.legend(fontsize=7, loc="best")
+        fig.suptitle(title or f"{self.name}: {self.target.get('material', '')} plate at {self.freq_hz:.4g} Hz",
+                     fontsize=10)
+        fig.tight_layout()
+        fig.savefig(path, format="png")
+
+    def plot(self, path, *, title: str = ""):
+        """PNG: Delta L, Delta R (tank shift, receiver EMF) and position."""
+        from ..export.atomic import atomic_path
+
+        with atomic_path(path) as tmp:
+            self._plot(tmp, title=title)
+        from pathlib import Path
+
+        return Path(path)
+
+    def write(self, out_dir, stem: str | None = None) -> dict:
+        """Write CSV, JSON and PNG together (all or none); return their paths."""
+        import json
+        from pathlib import Path
+
+        from ..export.atomic import Staging
+
+        out = Path(out_dir)
+        out.mkdir(parents=True, exist_ok=True)
+        stem = stem or f"{self.name}-signal"
+        written = {"csv": out / f"{stem}.csv", "json": out / f"{stem}.json", "png": out / f"{stem}.png"}
+        text = json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
+        with Staging() as stage:
+            stage.path(written["csv"]).write_text(self._csv_text(), encoding="utf-8")
+            stage.path(written["json"]).write_text(text, encoding="utf-8")
+            self._plot(stage.path(written["png"]))
+        return written
 
 
 def plate_signal(coil, plate: Plate, motion=None, *, freq_hz=None, tank_capacitance_f=None, receiver=None,
                  tx_current_a=1.0, cell_mm=None, max_cells=DEFAULT_MAX_CELLS, coil_inductance_h=None,
-                 coil_resistance_ohm=None, progress=None, use_grid=None) -> PlateSignal:
+                 coil_resistance_ohm=None, samples=None, load_ohm=None, progress=None, use_grid=None,
+                 name=None) -> PlateSignal:
     """Apparent inductance and resistance of a coil as a plate moves near it.
 
     Parameters
@@ -983,10 +1150,17 @@ def plate_signal(coil, plate: Plate, motion=None, *, freq_hz=None, tank_capacita
         Plate mesh (:func:`mesh_plate`).
     coil_inductance_h, coil_resistance_ohm : float, optional
         The coil's own L and R at ``freq_hz``; computed when not given.
+    samples : int, optional
+        Poses taken from a motion object (see :func:`poses`).
+    load_ohm : None
+        Not used for conductive targets (a load belongs to a magnet's EMF);
+        an error when given.
     progress : bool, optional
         tqdm progress bar over poses (default: on for more than 50 poses).
     use_grid : bool, optional
         See :meth:`PlateModel.coupling`.
+    name : str, optional
+        Name for reports (default: the coil's name).
 
     Returns
     -------
@@ -1010,8 +1184,11 @@ def plate_signal(coil, plate: Plate, motion=None, *, freq_hz=None, tank_capacita
     t0 = time.perf_counter()
     if not isinstance(plate, Plate):
         raise SpecError(f"plate must be a Plate; got {type(plate).__name__}")
+    if load_ohm is not None:
+        raise SpecError("load_ohm applies to a magnet's EMF; a conductive target gives the coil's impedance "
+                        "(leave load_ohm out)")
     cd = coil if isinstance(coil, Conductors) else conductors(coil)
-    pos, rot, time_s = poses(motion, plate)
+    pos, rot, time_s = poses(motion, plate, samples=samples)
     side = _side(plate, cd, pos)
     if receiver is not None:
         cd_rx = receiver if isinstance(receiver, Conductors) else conductors(receiver)
@@ -1070,7 +1247,14 @@ def plate_signal(coil, plate: Plate, motion=None, *, freq_hz=None, tank_capacita
         tank_capacitance_f=tank_capacitance_f, resonance_hz=res, frequency_shift_hz=shift, receiver=rx,
         time_s=time_s, rotation_deg=rot, unknowns=model.n_unknowns, cell_mm=model.mesh.cell_mm,
         skin_depth_mm=plate.skin_depth_m(freq_hz) / MM, factor_seconds=model.factor_seconds,
-        solve_seconds=time.perf_counter() - t0 - model.factor_seconds, notes=tuple(notes))
+        solve_seconds=time.perf_counter() - t0 - model.factor_seconds, notes=tuple(notes),
+        name=name or getattr(coil, "name", "coil"), target=_describe(plate, model))
+
+
+def _describe(plate: Plate, model: PlateModel) -> dict:
+    return {"kind": "plate", "material": plate.material_name, "conductivity_s_m": plate.sigma,
+            "thickness_mm": plate.thickness_mm, "area_mm2": plate.area_mm2, "mu_r": plate.mu_r,
+            "layer_mm": model.layer_m / MM, "sheet_ohm": [model.sheet_ohm.real, model.sheet_ohm.imag]}
 
 
 # ----------------------------------------------------------------------------
