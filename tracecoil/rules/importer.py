@@ -34,7 +34,6 @@ was found.
 from __future__ import annotations
 
 import math
-import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -43,6 +42,7 @@ from shapely.geometry import LineString, Polygon
 
 from ..errors import SpecError
 from ..outline import DEFAULT_TOLERANCE_MM, Outlines, as_multipolygon, disc
+from .ruleset import read_toml
 
 ROLES = ("drill", "board")
 FORMATS = ("dxf", "gds")
@@ -89,10 +89,7 @@ def parse_layer_map(spec) -> dict:
         p = Path(spec)
         if not p.is_file():
             raise SpecError(f"layer map file {str(p)!r} does not exist")
-        try:
-            data = tomllib.loads(p.read_text(encoding="utf-8"))
-        except tomllib.TOMLDecodeError as e:
-            raise SpecError(f"{p}: not valid TOML: {e}") from None
+        data = read_toml(p)
         if not isinstance(data.get("layers"), dict):
             raise SpecError(f"{p}: a layer map file needs a [layers] table such as TOP = 1, DRILLS = \"drill\"")
         items = data["layers"].items()

@@ -206,7 +206,8 @@ def rule_set_names() -> list[str]:
     return [n[len(RULE_PREFIX):] for n in template_names(RULE_PREFIX)]
 
 
-def _read_toml(path: Path) -> dict:
+def read_toml(path: Path) -> dict:
+    """Parsed TOML of ``path``; unreadable or invalid files raise SpecError."""
     try:
         return tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as e:
@@ -254,7 +255,7 @@ def load_rules(name_or_path=None, *, base_dir=None) -> RuleSet:
         if not path.is_file():
             names = rule_set_names()
             raise SpecError(f"no rule set named {text!r}; bundled rule sets: {', '.join(names) or '(none)'}; or give a path to a TOML file")
-    data = _read_toml(path)
+    data = read_toml(path)
     if set(data) != {"rules"}:
         extra = sorted(set(data) - {"rules"})
         raise SpecError(f"{path.name}: a rule set file holds one [rules] table; " + (f"found {extra}" if extra else "found none"))
