@@ -169,7 +169,7 @@ def conductors(coil) -> Conductors:
             a, b, d, seg = p[:-1][keep], p[1:][keep], d[keep], seg[keep]
             starts.append(np.column_stack([a, np.full(m, z)]))
             ends.append(np.column_stack([b, np.full(m, z)]))
-            wd = np.column_stack([-d[:, 1] / seg, d[:, 0] / seg, np.zeros(m)])
+            wd = np.column_stack([-d[:, 1] / seg, d[:, 0] / seg, np.zeros(m)]) + 0.0  # no -0.0
             # seen from +z after a flip the board's left is the world's right;
             # the left-of-travel rule is kept in world coordinates.
             wdirs.append(wd)

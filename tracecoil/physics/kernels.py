@@ -22,6 +22,8 @@ box_mutual, bar_self
     Exact partial inductances of parallel rectangular bars (Hoer & Love 1965).
 tube_self
     Partial self-inductance of a straight tube (via barrel).
+pair_energy
+    Blocked far-field double sum over quadrature points.
 rect_gmd, rect_amd
     Geometric and arithmetic mean distance of a rectangle from itself.
 
@@ -64,6 +66,7 @@ __all__ = [
     "rect_gmd",
     "rect_amd",
     "gauss_legendre",
+    "pair_energy",
 ]
 
 K_MU = MU0 / (4.0 * np.pi)  # mu0 / 4 pi in H/m
@@ -73,6 +76,58 @@ K_MU = MU0 / (4.0 * np.pi)  # mu0 / 4 pi in H/m
 ON_LINE_REL2 = 1e-14
 
 _BLOCK = 1 << 14  # elements per (points x segments) block; fits the L2 cache
+
+
+class _BlasThreads:
+    """Context manager limiting OpenBLAS to one thread inside hot loops.
+
+    The kernels call BLAS on thin matrices (k = 3 or a few columns), where
+    OpenBLAS's own threads cost more than they give (measured 3 ns per
+    element single-threaded against 25 ns with two threads on a loaded
+    2-core machine). Works with the OpenBLAS builds that NumPy and SciPy
+    wheels ship (found by name among the loaded libraries on Linux); does
+    nothing elsewhere. The previous thread count is restored on exit.
+    """
+
+    _funcs = None
+
+    @classmethod
+    def _find(cls):
+        if cls._funcs is None:
+            cls._funcs = []
+            try:
+                import ctypes
+
+                with open("/proc/self/maps") as fh:
+                    paths = sorted({ln.split()[-1] for ln in fh if "openblas" in ln.lower() and ".so" in ln})
+                for path in paths:
+                    lib = ctypes.CDLL(path)
+                    for pre in ("scipy_openblas", "openblas"):
+                        for suf in ("64_", ""):
+                            get = getattr(lib, f"{pre}_get_num_threads{suf}", None)
+                            put = getattr(lib, f"{pre}_set_num_threads{suf}", None)
+                            if get is not None and put is not None:
+                                put.argtypes = [ctypes.c_int]
+                                cls._funcs.append((get, put))
+                                break
+                        else:
+                            continue
+                        break
+            except (OSError, AttributeError, ValueError):
+                cls._funcs = []
+        return cls._funcs
+
+    def __enter__(self):
+        self._saved = []
+        for get, put in self._find():
+            self._saved.append((put, int(get())))
+            put(1)
+        return self
+
+    def __exit__(self, *exc):
+        for put, n in self._saved:
+            put(n)
+        return False
 
 
 def _threads(threads):
@@ -206,7 +261,8 @@ def segment_field(points, starts, ends, currents, *, block=_BLOCK, threads=None)
                              local.G[:, : kk * mm].reshape(3, kk, mm), acc)
             out[p0:p1] = acc
 
-    _run_tiled(work, k, pt_chunk, nthreads)
+    with _BlasThreads():
+        _run_tiled(work, k, pt_chunk, nthreads)
     return out
 
 
@@ -342,7 +398,8 @@ def segment_potential(points, starts, ends, currents, *, block=_BLOCK, threads=N
                 acc += g @ U[s0:s1]
             out[p0:p1] = acc
 
-    _run_tiled(work, k, pt_chunk, _threads(threads))
+    with _BlasThreads():
+        _run_tiled(work, k, pt_chunk, _threads(threads))
     return out
 
 
@@ -596,7 +653,7 @@ def _quadrature(a1, b1, a2, b2, order):
     return c * l1 * (g @ wg)
 
 
-def filament_mutual(a1, b1, a2, b2, *, parallel_tol=3e-5, quadrature_order=12):
+def filament_mutual(a1, b1, a2, b2, *, method="auto", parallel_tol=3e-5, quadrature_order=12):
     """Mutual inductance of pairs of straight filaments (Neumann's formula).
 
     ``M = mu0/(4 pi) (u1.u2) int int ds dt / |P(s) - Q(t)|`` for filaments
@@ -625,10 +682,24 @@ def filament_mutual(a1, b1, a2, b2, *, parallel_tol=3e-5, quadrature_order=12):
     Crossing or touching filaments give a finite value; overlapping
     collinear filaments give inf (the integral diverges).
 
+    Accuracy (against 30-digit quadrature while writing this module):
+    about 1e-13 relative in general position; nearly parallel filaments
+    (angle below ~1e-3 rad), where the inclined form loses digits, stay
+    within about 2e-8 relative even when 100 times longer than their
+    distance.
+
     Parameters
     ----------
     a1, b1, a2, b2 : ndarray, shape (n, 3)
         Filament end points (m), non-zero lengths.
+    method : {"auto", "closed", "quadrature"}
+        "auto" picks per pair as described; "closed" forces the closed
+        forms (for close pairs, skips the distance test), "quadrature" the
+        Gauss-Legendre rule (for well-separated pairs only).
+    parallel_tol : float
+        Sine of the angle below which filaments count as parallel.
+    quadrature_order : int
+        Gauss-Legendre points for separated pairs.
 
     Returns
     -------
@@ -654,8 +725,14 @@ def filament_mutual(a1, b1, a2, b2, *, parallel_tol=3e-5, quadrature_order=12):
         return out
     l1 = np.linalg.norm(b1 - a1, axis=-1)
     l2 = np.linalg.norm(b2 - a2, axis=-1)
-    gap = segment_distance(a1, b1, a2, b2)
-    far = gap >= np.minimum(l1, l2)
+    if method == "closed":
+        far = np.zeros(n, bool)
+    elif method == "quadrature":
+        far = np.ones(n, bool)
+    elif method == "auto":
+        far = segment_distance(a1, b1, a2, b2) >= np.minimum(l1, l2)
+    else:
+        raise ValueError(f"method must be one of ('auto', 'closed', 'quadrature'); got {method!r}")
     near = ~far
     if np.any(near):
         out[near] = _closed_form(a1[near], b1[near], a2[near], b2[near], parallel_tol)
@@ -742,10 +819,13 @@ def box_mutual(size1, size2, offset):
         M = mu0 / (4 pi A1 A2) sum_{ijk} (-1)^(i+j+k) f(X_i, Y_j, Z_k)
 
     where X_i, Y_j, Z_k are the four differences of the bars' bounds along
-    each axis. The 64-term sum cancels strongly for long thin bars, so it is
-    evaluated in ``np.longdouble`` (80-bit on x86: relative error about
-    1e-8 for a 100 mm x 0.1 mm x 18 um bar, against 2e-5 in float64; on
-    platforms where longdouble is float64 the error is the float64 one).
+    each axis. The 64-term sum cancels strongly for long thin bars: the
+    relative rounding error is about 1e-16 C with C = s^4 / (w t)^2 (s the
+    largest coordinate difference, w and t the smaller cross-section
+    sides). Pairs with C > 1e6 are evaluated in ``np.longdouble`` (80-bit on
+    x86, error about 1e-19 C: 1e-8 for a 100 mm x 0.1 mm x 18 um bar, where
+    float64 gives 2e-5); on platforms where longdouble is float64 the
+    float64 error applies.
 
     Parameters
     ----------
@@ -769,25 +849,33 @@ def box_mutual(size1, size2, offset):
     >>> round(float(M[0] / bar_self(1e-3, 1e-4, 35e-6)[0]), 12)
     1.0
     """
-    ld = np.longdouble
-    s1 = np.atleast_2d(np.asarray(size1, dtype=ld))
-    s2 = np.atleast_2d(np.asarray(size2, dtype=ld))
-    o = np.atleast_2d(np.asarray(offset, dtype=ld))
+    s1 = np.atleast_2d(np.asarray(size1, dtype=float))
+    s2 = np.atleast_2d(np.asarray(size2, dtype=float))
+    o = np.atleast_2d(np.asarray(offset, dtype=float))
+    span = np.max(np.abs(np.concatenate([o + s2, o - s1], axis=1)), axis=1)
+    small = np.minimum(s1[:, 1], s2[:, 1]) * np.minimum(s1[:, 2], s2[:, 2])
+    hard = span**4 > 1e6 * small**2
+    out = np.empty(len(s1))
+    for sel, dt in ((~hard, np.float64), (hard, np.longdouble)):
+        if np.any(sel):
+            out[sel] = _box_sum(s1[sel].astype(dt), s2[sel].astype(dt), o[sel].astype(dt))
+    return out
+
+
+def _box_sum(s1, s2, o):
     n = len(s1)
+    dt = s1.dtype
     diffs = []
     for ax in range(3):
         diffs.append(np.stack([o[:, ax] + s2[:, ax], o[:, ax] + s2[:, ax] - s1[:, ax], o[:, ax],
                                o[:, ax] - s1[:, ax]], axis=1))  # (n, 4)
-    sg = np.array([1, -1, -1, 1], dtype=ld)
-    X = diffs[0][:, :, None, None]
-    Y = diffs[1][:, None, :, None]
-    Z = diffs[2][:, None, None, :]
-    X, Y, Z = np.broadcast_arrays(X, Y, Z)
+    sg = np.array([1, -1, -1, 1], dtype=dt)
+    X, Y, Z = np.broadcast_arrays(diffs[0][:, :, None, None], diffs[1][:, None, :, None], diffs[2][:, None, None, :])
     f = _hl_f(X.reshape(n, -1), Y.reshape(n, -1), Z.reshape(n, -1))
     w = (sg[:, None, None] * sg[None, :, None] * sg[None, None, :]).reshape(-1)
     tot = f @ w
     area = s1[:, 1] * s1[:, 2] * s2[:, 1] * s2[:, 2]
-    return (ld(K_MU) * tot / area).astype(float)
+    return (dt.type(K_MU) * tot / area).astype(float)
 
 
 def bar_self(length, width, thickness):
@@ -884,3 +972,95 @@ def tube_self(length, outer_radius, wall):
         term = np.where(r1 > 0, r1**4 / (q * q) * np.log(r2 / np.where(r1 > 0, r1, 1.0)), 0.0)
     g = np.exp(np.log(r2) - term + (3 * r1 * r1 - r2 * r2) / (4 * q))
     return 2 * K_MU * (l * np.arcsinh(l / g) - np.sqrt(l * l + g * g) + g)
+
+
+# --------------------------------------------------------------------------
+# Far-field sums over quadrature points
+# --------------------------------------------------------------------------
+
+def pair_energy(x, j, groups, n_groups, *, x2=None, j2=None, groups2=None, n_groups2=None, block=1024):
+    """Grouped sums of j_p . j_q / |x_p - x_q| over pairs of weighted points.
+
+    With one set of points (``x2`` None) the sum runs over all ordered
+    pairs p != q; with two sets over all p in set 1 and q in set 2. Used
+    with Gauss-Legendre points of conductor segments and j = current x
+    weight x length x direction, ``mu0/(4 pi) * E`` is the corresponding
+    quadrature of Neumann's double sum.
+
+    Computed in blocks of ``block`` x ``block`` pairs (one float64 buffer of
+    that size), with |x_p - x_q|^2 = |x_p|^2 + |x_q|^2 - 2 x_p.x_q from a
+    matrix product after centring the coordinates (relative rounding of
+    about 1e-16 |x|^2 / |x_p - x_q|^2, so keep coincident points out: their
+    pair is dropped only when p == q in a single set).
+
+    Parameters
+    ----------
+    x : ndarray, shape (N, 3)
+        Points (m).
+    j : ndarray, shape (N, 3)
+        Vector weights (A m).
+    groups : ndarray of int, shape (N,)
+        Group index 0..n_groups-1 of each point.
+    n_groups : int
+    x2, j2, groups2, n_groups2 : optional
+        Second set of points.
+    block : int
+        Block edge.
+
+    Returns
+    -------
+    ndarray, shape (n_groups, n_groups2)
+        E[a, b] = sum over p in group a, q in group b of j_p . j_q / r_pq.
+
+    Examples
+    --------
+    >>> x = np.array([[0, 0, 0], [1, 0, 0], [0, 2, 0]], float)
+    >>> j = np.array([[1, 0, 0], [1, 0, 0], [0, 1, 0]], float)
+    >>> pair_energy(x, j, np.zeros(3, int), 1)  # 2 * (1/1)
+    array([[2.]])
+    """
+    same = x2 is None
+    x = np.asarray(x, float)
+    if same:
+        x2, j2, groups2, n_groups2 = x, j, groups, n_groups
+    x2 = np.asarray(x2, float)
+    centre = 0.5 * (x.mean(axis=0) + x2.mean(axis=0))
+    xa, xb = x - centre, x2 - centre
+    sqa, sqb = np.einsum("ij,ij->i", xa, xa), np.einsum("ij,ij->i", xb, xb)
+    # j expanded per group: column block g holds j where groups2 == g
+    jb = np.zeros((len(xb), n_groups2, 3))
+    jb[np.arange(len(xb)), groups2] = j2
+    jb = jb.reshape(len(xb), 3 * n_groups2)
+    ja = np.asarray(j, float)
+    onehot_a = np.zeros((len(xa), n_groups))
+    onehot_a[np.arange(len(xa)), groups] = 1.0
+    with _BlasThreads():
+        return _pair_energy_blocks(xa, xb, sqa, sqb, ja, jb, onehot_a, n_groups, n_groups2, same, block)
+
+
+def _pair_energy_blocks(xa, xb, sqa, sqb, ja, jb, onehot_a, n_groups, n_groups2, same, block):
+    E = np.zeros((n_groups, n_groups2))
+    buf = np.empty(block * block)
+    na, nb = len(xa), len(xb)
+    for i0 in range(0, na, block):
+        i1 = min(i0 + block, na)
+        j_start = i0 if same else 0
+        for j0 in range(j_start, nb, block):
+            j1 = min(j0 + block, nb)
+            G = buf[: (i1 - i0) * (j1 - j0)].reshape(i1 - i0, j1 - j0)
+            np.matmul(xa[i0:i1], xb[j0:j1].T, out=G)
+            G *= -2.0
+            G += sqa[i0:i1, None]
+            G += sqb[None, j0:j1]
+            np.maximum(G, 1e-300, out=G)
+            np.sqrt(G, out=G)
+            np.divide(1.0, G, out=G)
+            if same and i0 == j0:
+                np.fill_diagonal(G, 0.0)
+            phi = (G @ jb[j0:j1]).reshape(i1 - i0, n_groups2, 3)
+            contrib = onehot_a[i0:i1].T @ np.einsum("pk,pgk->pg", ja[i0:i1], phi)
+            if same and j0 != i0:
+                E += contrib + contrib.T
+            else:
+                E += contrib
+    return E
