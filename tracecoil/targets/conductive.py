@@ -624,7 +624,9 @@ class PlateModel:
         Bottom and top of the current layer, relative to the plate's
         bottom face (m).
     factor_seconds : float
-        Time to assemble and factorise.
+        Time to mesh, assemble and factorise (s).
+    lu_seconds : float
+        Of which the LU factorisation (s).
     """
 
     def __init__(self, plate: Plate, freq_hz, *, side="below", cell_mm=None, max_cells=DEFAULT_MAX_CELLS):
@@ -655,7 +657,9 @@ class PlateModel:
         Rloop = (m.cx.T @ sp.diags(rbar[:nbx]) @ m.cx + m.cy.T @ sp.diags(rbar[nbx:]) @ m.cy).toarray()
         self.inductance_matrix_h = Lloop
         Z = 1j * self.omega * Lloop + Rloop
+        t1 = time.perf_counter()
         self._lu = scipy.linalg.lu_factor(Z, check_finite=False)
+        self.lu_seconds = time.perf_counter() - t1
         self.factor_seconds = time.perf_counter() - t0
         if plate.mu_r != 1.0:
             warnings.warn(f"plate mu_r = {plate.mu_r}: the eddy-current model uses it for the skin depth only; "
