@@ -1051,17 +1051,19 @@ class PlateSignal:
             w.writerow([format(float(v), ".10g") for v in row])
         return buf.getvalue()
 
+    # The file writers are the magnet signal's (they only call name, to_dict,
+    # _csv_text and _plot), so both kinds of result write files the same way.
     def write_csv(self, path):
         """Write the per-pose table as CSV (atomic)."""
-        from ..export.atomic import write_text
+        from .signal import MagnetSignal
 
-        return write_text(path, self._csv_text())
+        return MagnetSignal.write_csv(self, path)
 
     def write_json(self, path):
         """Write :meth:`to_dict` as JSON (atomic)."""
-        from ..export.atomic import write_json
+        from .signal import MagnetSignal
 
-        return write_json(path, self.to_dict())
+        return MagnetSignal.write_json(self, path)
 
     def _plot(self, path, *, title: str = "") -> None:
         from matplotlib.figure import Figure
@@ -1099,32 +1101,16 @@ class PlateSignal:
         fig.savefig(path, format="png")
 
     def plot(self, path, *, title: str = ""):
-        """PNG: Delta L, Delta R (tank shift, receiver EMF) and position."""
-        from ..export.atomic import atomic_path
+        """PNG (atomic): Delta L, Delta R (tank shift, receiver EMF) and position."""
+        from .signal import MagnetSignal
 
-        with atomic_path(path) as tmp:
-            self._plot(tmp, title=title)
-        from pathlib import Path
-
-        return Path(path)
+        return MagnetSignal.plot(self, path, title=title)
 
     def write(self, out_dir, stem: str | None = None) -> dict:
         """Write CSV, JSON and PNG together (all or none); return their paths."""
-        import json
-        from pathlib import Path
+        from .signal import MagnetSignal
 
-        from ..export.atomic import Staging
-
-        out = Path(out_dir)
-        out.mkdir(parents=True, exist_ok=True)
-        stem = stem or f"{self.name}-signal"
-        written = {"csv": out / f"{stem}.csv", "json": out / f"{stem}.json", "png": out / f"{stem}.png"}
-        text = json.dumps(self.to_dict(), indent=2, allow_nan=False) + "\n"
-        with Staging() as stage:
-            stage.path(written["csv"]).write_text(self._csv_text(), encoding="utf-8")
-            stage.path(written["json"]).write_text(text, encoding="utf-8")
-            self._plot(stage.path(written["png"]))
-        return written
+        return MagnetSignal.write(self, out_dir, stem)
 
 
 def plate_signal(coil, plate: Plate, motion=None, *, freq_hz=None, tank_capacitance_f=None, receiver=None,
