@@ -18,7 +18,7 @@ from shapely.geometry import box
 
 from rules_layouts import RULES, bulged_pair, disc, make_outlines, meander, narrowed_trace, rotate_point, two_traces
 from tracecoil.rules import LIMIT_TOL_MM, check
-from tracecoil.rules.geometry import cluster_pairs, ring_distance
+from tracecoil.rules.geometry import ring_distance
 
 ATOL = 1e-9  # mm: float rounding of straight edges, far below any rule value
 
@@ -217,10 +217,12 @@ def test_uniformly_thin_trace_is_one_finding():
     assert_allclose(f.measured, 0.199, atol=ATOL)
 
 
-def test_cluster_pairs_links_touching_quads_only():
-    q = np.array([[[0, 0], [1, 0], [1, 1], [0, 1]], [[1, 0], [2, 0], [2, 1], [1, 1]], [[3, 0], [4, 0], [4, 1], [3, 1]]], float)
-    lab = cluster_pairs(q)
-    assert lab[0] == lab[1] != lab[2]
+def test_narrow_stretch_continuing_round_a_corner_is_one_finding():
+    # an L-shaped trace 1 um too narrow along both arms: the offending
+    # stretch runs from one edge onto the next, so it is one place
+    g = box(0, 0, 5, 0.199).union(box(4.801, 0, 5, 5))
+    (f,) = only(check(make_outlines({1: g}), RULES), "MIN_WIDTH")
+    assert_allclose(f.measured, 0.199, atol=ATOL)
 
 
 def test_ring_distance_reads_chords_as_arcs_but_not_flats():
@@ -230,3 +232,25 @@ def test_ring_distance_reads_chords_as_arcs_but_not_flats():
     assert_allclose(ring_distance(np.zeros(2), ring, 2e-3), 1.0, rtol=1e-12)
     # with a tolerance below the sag the chords count as straight
     assert_allclose(ring_distance(np.zeros(2), ring, 1e-4), np.cos(np.pi / 64), rtol=1e-12)
+
+
+def test_findings_lie_where_opening_and_closing_change_the_copper():
+    # A second route: morphological opening buffer(-r).buffer(+r) removes
+    # copper narrower than 2r, closing buffer(+r).buffer(-r) fills gaps
+    # narrower than 2r (GEOS buffers, r = (limit - 0.1 um) / 2). Every
+    # width finding must lie in copper the opening removes, every gap
+    # finding in space the closing fills.
+    from shapely import affinity
+    from shapely.geometry import Point
+
+    notch, _ = narrowed_trace()
+    bulge, _ = bulged_pair()
+    g = notch.union(affinity.translate(bulge, 0, 2)).union(affinity.translate(meander(width=0.2, gap=0.2, legs=4, length=4), 0, 5))
+    res = check(make_outlines({1: g}, n_layers=1), RULES)
+    assert sorted(f.rule for f in res.findings) == ["MIN_GAP", "MIN_WIDTH"]
+    r = (0.2 - LIMIT_TOL_MM) / 2
+    removed = g.difference(g.buffer(-r, quad_segs=32).buffer(r, quad_segs=32))
+    filled = g.buffer(r, quad_segs=32).buffer(-r, quad_segs=32).difference(g)
+    for f in res.findings:
+        region = removed if f.rule == "MIN_WIDTH" else filled
+        assert region.distance(Point(f.at)) < 1e-6, f

@@ -29,10 +29,11 @@ that *face* each other, the way layout rule checkers do it:
   of several limits, which the etch cannot make reliably.
 
 Candidate pairs come from an R-tree of edge bounding boxes grown by the
-largest limit. Pairs that break a rule are grouped into location clusters
-(touching quadrilaterals between the two edge parts), and each cluster
-gives one finding: its smallest distance, where it was measured and the
-two points measured between.
+largest limit. Pairs that break a rule are cut down to the stretch that
+breaks it and grouped into location clusters along the copper boundary
+(parts that overlap on an edge or continue onto the next edge join; see
+:func:`cluster_pairs`), and each cluster gives one finding: its smallest
+distance, where it was measured and the two points measured between.
 
 Why not morphological opening and closing? ``buffer(-w/2).buffer(+w/2)``
 compared with the original does find narrow copper, but it also reports
@@ -270,6 +271,8 @@ class PairScan:
     pa: np.ndarray
     pb: np.ndarray
     quad: np.ndarray
+    i: np.ndarray
+    j: np.ndarray
 
     @property
     def smallest(self) -> float | None:
@@ -294,34 +297,78 @@ def scan_pairs(edges: Edges, reach_mm: float) -> tuple[PairScan, PairScan]:
         for side in (1, -1):
             keep, d, pa, pb, quad = facing_pairs(edges, i, j, side=side)
             m = keep & (d < reach_mm)
-            out[side].append((d[m], pa[m], pb[m], quad[m]))
+            out[side].append((d[m], pa[m], pb[m], quad[m], i[m], j[m]))
     scans = []
     for side in (1, -1):
         parts = out[side]
         if parts:
-            scans.append(PairScan(*(np.concatenate([p[k] for p in parts]) for k in range(4))))
+            scans.append(PairScan(*(np.concatenate([p[k] for p in parts]) for k in range(6))))
         else:
-            z2 = np.zeros((0, 2))
-            scans.append(PairScan(np.zeros(0), z2, z2, np.zeros((0, 4, 2))))
+            z2, zi = np.zeros((0, 2)), np.zeros(0, int)
+            scans.append(PairScan(np.zeros(0), z2, z2, np.zeros((0, 4, 2)), zi, zi))
     return scans[0], scans[1]
 
 
-def cluster_pairs(quad: np.ndarray, link_mm: float = _LINK_MM) -> np.ndarray:
-    """Cluster label of each violating pair: pairs whose facing
-    quadrilaterals touch (within ``link_mm``) share a label.
+def cluster_pairs(edges: Edges, i, j, a0, a1, b0, b1, link_mm: float = _LINK_MM) -> np.ndarray:
+    """Cluster label of each violating pair (i, j), whose offending parts
+    are a0 -> a1 on edge i and b0 -> b1 on edge j.
 
-    >>> q = np.array([[[0, 0], [1, 0], [1, 1], [0, 1]], [[1, 0], [2, 0], [2, 1], [1, 1]], [[5, 0], [6, 0], [6, 1], [5, 1]]], float)
-    >>> cluster_pairs(q).tolist()
+    Works along the copper boundary in linear time: each pair joins its
+    two parts; parts on one edge that overlap (or come within ``link_mm``)
+    join; a part that reaches the end of an edge joins one that starts the
+    next edge of the ring. So one narrow stretch is one cluster however
+    many edge pairs it spans, and two narrow places separated by a stretch
+    that keeps the limit stay apart.
+
+    >>> from shapely.geometry import box
+    >>> e = boundary_edges(box(0, 0, 10, 1))
+    >>> bottom, top = int(np.argmax(e.normal[:, 1])), int(np.argmin(e.normal[:, 1]))
+    >>> xs = np.array([[1.0, 2.0], [1.5, 2.5], [6.0, 7.0]])  # three offending stretches along x
+    >>> on = lambda y: (np.column_stack([xs[:, 0], np.full(3, y)]), np.column_stack([xs[:, 1], np.full(3, y)]))
+    >>> (a0, a1), (b0, b1) = on(0.0), on(1.0)
+    >>> cluster_pairs(e, np.full(3, bottom), np.full(3, top), a0, a1, b0, b1).tolist()
     [0, 0, 1]
     """
-    if len(quad) == 0:
+    n = len(i)
+    if n == 0:
         return np.zeros(0, int)
-    closed = np.concatenate([quad, quad[:, :1]], axis=1)
-    hulls = shapely.convex_hull(shapely.polygons(closed))
-    tree = shapely.STRtree(hulls)
-    a, b = tree.query(hulls, predicate="dwithin", distance=link_mm)
-    graph = coo_matrix((np.ones(len(a)), (a, b)), shape=(len(quad), len(quad)))
+    node_edge = np.concatenate([i, j])
+    starts = np.concatenate([a0, b0])
+    ends = np.concatenate([a1, b1])
+    p0 = edges.p0[node_edge]
+    vec = edges.p1[node_edge] - p0
+    length = np.hypot(*vec.T)
+    u0 = np.einsum("ij,ij->i", starts - p0, vec) / length**2
+    u1 = np.einsum("ij,ij->i", ends - p0, vec) / length**2
+    lo, hi = np.clip(np.minimum(u0, u1), 0, 1), np.clip(np.maximum(u0, u1), 0, 1)
+    tol = link_mm / length
+    rows = [np.arange(n)]
+    cols = [np.arange(n) + n]  # the two parts of one pair
+    # overlapping parts on one edge: sort by (edge, start), sweep the running end
+    order = np.lexsort((lo, node_edge))
+    e_s, lo_s, hi_s, tol_s = node_edge[order], lo[order], hi[order], tol[order]
+    run = np.maximum.accumulate(hi_s + 2.0 * e_s)  # offsets keep edges apart: parts lie in [0, 1]
+    join = (e_s[1:] == e_s[:-1]) & (lo_s[1:] + 2.0 * e_s[1:] <= run[:-1] + tol_s[1:])
+    rows.append(order[1:][join])
+    cols.append(order[:-1][join])
+    # a part reaching the end of an edge and one leaving the start of the next
+    nxt = np.arange(len(edges)) + 1
+    last = np.r_[edges.ring[1:] != edges.ring[:-1], True]
+    first_of_ring = np.searchsorted(edges.ring, edges.ring)
+    nxt[last] = first_of_ring[last]
+    at_end = np.full(len(edges), -1)
+    at_start = np.full(len(edges), -1)
+    k_end = np.flatnonzero(hi >= 1 - tol)
+    at_end[node_edge[k_end]] = k_end
+    k_start = np.flatnonzero(lo <= tol)
+    at_start[node_edge[k_start]] = k_start
+    e_link = np.flatnonzero((at_end >= 0) & (at_start[nxt] >= 0))
+    rows.append(at_end[e_link])
+    cols.append(at_start[nxt[e_link]])
+    r, c = np.concatenate(rows), np.concatenate(cols)
+    graph = coo_matrix((np.ones(len(r)), (r, c)), shape=(2 * n, 2 * n))
     _, label = connected_components(graph, directed=False)
+    _, label = np.unique(label[:n], return_inverse=True)
     return label
 
 
@@ -352,7 +399,7 @@ def _middle_of_narrowest(quad, dist):
     return a, b[0]
 
 
-def _pair_findings(scan: PairScan, limit_mm: float, *, rule: str, layer: str, describe) -> list[Finding]:
+def _pair_findings(edges: Edges, scan: PairScan, limit_mm: float, *, rule: str, layer: str, describe) -> list[Finding]:
     bad = scan.dist < limit_mm - LIMIT_TOL_MM
     if not bad.any():
         return []
@@ -361,7 +408,7 @@ def _pair_findings(scan: PairScan, limit_mm: float, *, rule: str, layer: str, de
     # narrow places along one long gap stay separate clusters
     a0, a1 = _trim(quad[:, 0], quad[:, 1], quad[:, 3], quad[:, 2], limit_mm - LIMIT_TOL_MM)
     b1, b0 = _trim(quad[:, 2], quad[:, 3], quad[:, 0], quad[:, 1], limit_mm - LIMIT_TOL_MM)
-    labels = cluster_pairs(np.stack([a0, a1, b1, b0], axis=1))
+    labels = cluster_pairs(edges, scan.i[bad], scan.j[bad], a0, a1, b0, b1)
     out = []
     for lab in range(labels.max() + 1):
         idx = np.flatnonzero(labels == lab)
@@ -404,8 +451,9 @@ def width_gap_findings(copper, *, layer: str, min_width_mm: float, min_gap_mm: f
     drills : ndarray, shape (m, 3), optional
         Holes (x, y, diameter); their circles are left to the hole rules.
     reach_mm : float, optional
-        How far to look (default 1.5 x the largest limit); the narrowest
-        width and gap found within it are returned for the report.
+        How far to look (default 1.5 x the larger fabrication limit, or
+        the voltage gap if that is larger); the narrowest width and gap
+        found within it are returned for the report.
 
     Returns
     -------
@@ -415,17 +463,18 @@ def width_gap_findings(copper, *, layer: str, min_width_mm: float, min_gap_mm: f
         when nothing is that close).
     """
     gap_limit = max(min_gap_mm, voltage_gap_mm)
-    reach = reach_mm if reach_mm is not None else 1.5 * max(min_width_mm, gap_limit)
+    reach = reach_mm if reach_mm is not None else max(1.5 * max(min_width_mm, min_gap_mm), gap_limit + 1e-3)
     edges = boundary_edges(copper, drills)
     wscan, gscan = scan_pairs(edges, reach)
     findings = _pair_findings(
+        edges,
         wscan,
         min_width_mm,
         rule="MIN_WIDTH",
         layer=layer,
         describe=lambda m: f"copper {m:.4f} mm wide on {layer}, narrower than the {min_width_mm:.4f} mm minimum",
     )
-    for f in _pair_findings(gscan, gap_limit, rule="MIN_GAP", layer=layer, describe=lambda m: ""):
+    for f in _pair_findings(edges, gscan, gap_limit, rule="MIN_GAP", layer=layer, describe=lambda m: ""):
         if f.measured < min_gap_mm - LIMIT_TOL_MM:
             msg = f"copper {f.measured:.4f} mm apart on {layer}, closer than the {min_gap_mm:.4f} mm minimum gap"
             if gap_limit > min_gap_mm:
