@@ -315,3 +315,22 @@ def test_signal_dispatch_with_a_linear_motion(tmp_path):
     assert len(d["inductance_h"]) == 11 and d["frequency_shift_hz"] is None
     assert files["png"].stat().st_size > 1000
     assert any("dL" in line for line in r.summary_lines())
+
+
+def test_tab_on_a_rotating_shaft_sees_the_same_coil_all_round():
+    # An 8 x 3 mm tab carried round a circle over a 256-gon loop, turning with
+    # the shaft: the tab's geometry relative to the loop repeats at every
+    # angle, so Delta L is the same (to the polygon's 0.01 % ripple). If the
+    # turn were ignored, the tab would lie radial at 0 deg and tangential at
+    # 90 deg and Delta L would differ by tens of per cent.
+    from tracecoil.targets import Circular
+
+    tab = Plate([[-1.5, -4], [1.5, -4], [1.5, 4], [-1.5, 4]], 0.5, material="aluminium")
+    zc = LOOP.z_mm(1)
+    shaft = Circular(centre_mm=(0, 0, zc + 1.0), radius_mm=5.0, rpm=600, revolutions=0.75, rotate_target=True)
+    kw = dict(freq_hz=1e6, cell_mm=0.5, coil_inductance_h=1e-7, coil_resistance_ohm=0.1)
+    r = plate_signal(LOOP, tab, shaft, samples=4, **kw)
+    assert_allclose(r.rotation_deg, [0, 90, 180, -90], atol=1e-9)
+    assert_allclose(r.delta_l_h, r.delta_l_h[0], rtol=1e-3)
+    fixed = plate_signal(LOOP, tab, r.position_mm[:2], **kw)  # same places, no turn
+    assert abs(fixed.delta_l_h[1] / fixed.delta_l_h[0] - 1) > 0.1
