@@ -408,6 +408,11 @@ def _inv_r_line_block(pts, a, L, L2, ln_, b):
 
     Zero where the point lies on the segment (singular).
     """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return _inv_r_line_block_raw(pts, a, L, L2, ln_, b)
+
+
+def _inv_r_line_block_raw(pts, a, L, L2, ln_, b):
     X, Y, Z, T, R1, R2, W, V = (b[n] for n in ("X", "Y", "Z", "T", "R1", "R2", "W", "V"))
     beside, ok = b["mask"], b["mask2"]
     np.subtract(pts[:, 0:1], a[:, 0], out=X)
