@@ -49,9 +49,12 @@ from memory) applied to a conducting sheet:
   internal inductance mu0 t_c / 3 that the bars' own finite thickness
   already carries, so that to first order in (field wavenumber / alpha_1)
   the sheet reflects a plane-wave spectrum exactly like the solid plate
-  of C. V. Dodd and W. E. Deeds, J. Appl. Phys. 39, 1968 (derivation in
-  the module's tests: tests/test_conductive.py checks the whole model
-  against their integral). A spectral comparison of this sheet against the
+  of C. V. Dodd and W. E. Deeds, J. Appl. Phys. 39, 1968: expanding their
+  reflection coefficient for small alpha / alpha_1 gives
+  R = -1 + 2 alpha Z_s' / (j omega mu0), Z_s' the coth term, and a
+  uniform-current layer of thickness t_c with the impedance above gives
+  the same to that order, whatever t_c (tests/test_conductive.py checks
+  the whole model against their integral). A spectral comparison of this sheet against the
   exact plate, done while writing this module (loop radius 5 mm, heights
   0.5 to 2 mm, t from 35 um to 3 mm, f 10 kHz to 10 MHz, aluminium and
   stainless steel), gave Delta L within 0.5 % where t < delta / 2 or
