@@ -22,11 +22,18 @@ that *face* each other, the way layout rule checkers do it:
   two parts. A pair closer than the limit is a violation;
 * when both edges belong to one ring, the middles of the two facing parts
   must also lie more than ``PATH_FACTOR`` (3) times their distance apart
-  along the ring, the short way round. Otherwise they are the two sides of one corner (a
-  lead joining its own turn at an angle, a polyline bend next to it), not
-  a narrow place. A wedge of space or copper sharper than about 39 degrees
-  (2 asin(1/3)) still counts: it is narrower than the limit over a length
-  of several limits, which the etch cannot make reliably.
+  along the ring, the short way round. Otherwise they are the two sides of
+  one corner (a lead joining its own turn at an angle, a polyline bend
+  next to it), not a narrow place. A wedge of space or copper sharper than
+  about 39 degrees (2 asin(1/3)) still counts, with a distance of 0: it is
+  narrower than the limit over a length of several limits, which the etch
+  cannot make reliably.
+
+Like any projection-metric check, this does not measure between two
+corners whose edges do not overlap in projection (two rectangles offset
+diagonally); round ends and pads are many short chords, and those are
+measured. Notches shallower than about twice their width count as
+corners.
 
 Candidate pairs come from an R-tree of edge bounding boxes grown by the
 largest limit. Pairs that break a rule are cut down to the stretch that
@@ -38,12 +45,14 @@ distance, where it was measured and the two points measured between.
 Why not morphological opening and closing? ``buffer(-w/2).buffer(+w/2)``
 compared with the original does find narrow copper, but it also reports
 every convex corner (and closing every concave one), which must then be
-measured anyway; GEOS also simplifies buffer input by 1 % of the buffer
-distance, which is 1 um at w = 0.2 mm, the size of the defects the check
-must catch; and on a 30-turn circular spiral at the gap limit the closing
-pinches into thousands of slivers and took 0.5-0.7 s per layer against
-about 0.03 s for the edge pairs (measured on the 2-core development
-machine). The edge-pair distances are exact on the polygons.
+measured anyway; GEOS simplifies buffer input by a fraction of the buffer
+distance (1 %, from memory of its buffer parameters), which is 1 um at
+w = 0.2 mm, the size of the defects the check must catch; and on a 30-turn
+circular spiral at the gap limit the closing pinches into thousands of
+slivers and took 0.5-0.7 s per layer against about 0.03 s for the edge
+pairs (measured on the 2-core development machine). The edge-pair
+distances are exact on the polygons; the tests use opening and closing as
+a second route to where the findings must lie.
 
 Floating point: a value passes when ``measured >= limit - LIMIT_TOL_MM``
 (0.1 um), so a layout drawn exactly at a limit passes although its
