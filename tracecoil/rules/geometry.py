@@ -89,7 +89,8 @@ _COS_IGNORE = math.cos(math.radians(IGNORE_ANGLE_DEG))
 PATH_FACTOR = 3.0  # same-ring points closer along the boundary than 3x their distance form a corner
 _MIN_OVERLAP_MM = 1e-9  # facing parts shorter than this are a shared point
 ON_HOLE_TOL_MM = 1e-4  # an edge lies on a hole when both ends are this close to its circle
-_LINK_MM = 1e-3  # violation quadrilaterals closer than this form one cluster
+_POINT_MM = 1e-6  # a measured width or gap this small is a point: a spike, a wedge or a touch
+_LINK_MM = 1e-3  # offending parts this close along an edge belong to one place
 _CHUNK = 200_000  # candidate pairs per numpy block (about 30 MB of temporaries)
 
 
@@ -481,10 +482,20 @@ def width_gap_findings(copper, *, layer: str, min_width_mm: float, min_gap_mm: f
         min_width_mm,
         rule="MIN_WIDTH",
         layer=layer,
-        describe=lambda m: f"copper {m:.4f} mm wide on {layer}, narrower than the {min_width_mm:.4f} mm minimum",
+        describe=lambda m: (
+            f"copper {m:.4f} mm wide on {layer}, narrower than the {min_width_mm:.4f} mm minimum"
+            if m > _POINT_MM
+            else f"copper on {layer} runs out to a sharp point, a spike narrower than the {min_width_mm:.4f} mm minimum width"
+        ),
     )
     for f in _pair_findings(edges, gscan, gap_limit, rule="MIN_GAP", layer=layer, describe=lambda m: ""):
-        if f.measured < min_gap_mm - LIMIT_TOL_MM:
+        if f.measured <= _POINT_MM:
+            msg = (
+                f"copper on {layer} touches itself or meets at a sharp inside corner: a wedge of space narrower than "
+                f"the {gap_limit:.4f} mm gap that etching cannot clear"
+            )
+            findings.append(_replace(f, limit=gap_limit, message=msg))
+        elif f.measured < min_gap_mm - LIMIT_TOL_MM:
             msg = f"copper {f.measured:.4f} mm apart on {layer}, closer than the {min_gap_mm:.4f} mm minimum gap"
             if gap_limit > min_gap_mm:
                 msg += f" (the working voltage needs {gap_limit:.4f} mm)"
