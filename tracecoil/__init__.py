@@ -12,5 +12,3 @@ from .generators import build_coil, coil_from_design, custom_coil, max_turns, sp
 from .layout import Coil, Stackup, Step, Terminal, Trace, Via
 from .predict import Prediction, frequency_sweep, predict
 from .rules import CheckResult, Finding, RuleSet, check, load_rules
-from .targets.conductive import Plate, plate_signal
-from .targets.coupling import receiver_signal
