@@ -296,6 +296,44 @@ def _lc_frequency(ev):
     return float(ev.prediction.tank["frequency_hz"])
 
 
+def _base_dir(design):
+    from pathlib import Path
+
+    return Path(design.source).parent if design.source else None
+
+
+@metric("peak_emf", ("peak_emf_v", "V", float), better="high", needs=("[target]", "[motion]"), help="peak open-circuit EMF of the design's magnet target along its motion")
+def _peak_emf(ev):
+    from ..targets.magnets import Magnet
+    from ..targets.motion import motion_from_table
+    from ..targets.signal import signal, target_from_table
+
+    t = ev.design.tables
+    target = target_from_table(t["target"], base_dir=_base_dir(ev.design))
+    motion = motion_from_table(t["motion"], base_dir=_base_dir(ev.design))
+    if not isinstance(target, Magnet):
+        raise SpecError(f"peak_emf needs a magnet [target]; got {type(target).__name__} (for a conductive plate use the delta_l metric)")
+    return float(signal(ev.coil, target, motion).peak_emf_v)
+
+
+@metric(
+    "delta_l",
+    ("delta_l_h", "H", float),
+    needs=("[target]",),
+    help="inductance change with the design's conductive plate at distance_mm above the board (default: the plate's own position)",
+)
+def _delta_l(ev):
+    from ..targets.conductive import plate_from_table, plate_signal
+
+    plate, popts = plate_from_table(ev.design.tables["target"])
+    popts.pop("tank_capacitance_f", None)
+    popts.setdefault("freq_hz", ev.options.freq_hz)
+    x, y, z = (float(v) for v in plate.position_mm)
+    if ev.options.distance_mm is not None:
+        z = ev.options.distance_mm
+    return float(plate_signal(ev.coil, plate, [[x, y, z]], progress=False, **popts).delta_l_h[0])
+
+
 @metric(
     "rules",
     ("rules_ok", "", bool),
