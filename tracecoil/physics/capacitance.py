@@ -420,12 +420,14 @@ def capacitance(coil, *, cuts: int = DEFAULT_CUTS, cells: int = 10) -> Capacitan
         # Energy per length of the cross-section, shared by its k strips;
         # this cut stands for ds of copper, so for ds / k of the winding.
         c_pair = c[ka, kb] * (v[ka] - v[kb]) ** 2 * ds_m / k
-        for p, q, cp in zip(layer[ka].tolist(), layer[kb].tolist(), c_pair.tolist()):
-            if p == q:
-                t2t[p] = t2t.get(p, 0.0) + cp
+        lo, hi = np.minimum(layer[ka], layer[kb]), np.maximum(layer[ka], layer[kb])
+        keys, inverse = np.unique(lo * 1000 + hi, return_inverse=True)
+        for key, cp in zip(keys.tolist(), np.bincount(inverse, weights=c_pair).tolist()):
+            a, b = divmod(key, 1000)
+            if a == b:
+                t2t[a] = t2t.get(a, 0.0) + cp
             else:
-                key = (min(p, q), max(p, q))
-                l2l[key] = l2l.get(key, 0.0) + cp
+                l2l[(a, b)] = l2l.get((a, b), 0.0) + cp
     total = sum(t2t.values()) + sum(l2l.values())
     notes = (
         "capacitance: energy-equivalent estimate, potential linear along the winding, 2-D cross-sections "
