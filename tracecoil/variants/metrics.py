@@ -45,11 +45,13 @@ class MetricUnavailable(SpecError):
 
 @dataclass(frozen=True)
 class Column:
-    """One output column of a metric: name, unit ('' for none) and type."""
+    """One output column of a metric: name, unit ('' for none), type and,
+    for columns other than a metric's first, which direction is better."""
 
     name: str
     unit: str
     type: type = float
+    better: str | None = None
 
 
 @dataclass(frozen=True)
@@ -68,6 +70,13 @@ class Metric:
     def column(self) -> str:
         """The main column (the first)."""
         return self.columns[0].name
+
+    def better_for(self, column: str) -> str | None:
+        """Which direction is better for one of this metric's columns."""
+        for i, c in enumerate(self.columns):
+            if c.name == column:
+                return c.better or (self.better if i == 0 else None)
+        raise KeyError(column)
 
 
 METRICS: dict[str, Metric] = {}
@@ -337,8 +346,8 @@ def _delta_l(ev):
 @metric(
     "rules",
     ("rules_ok", "", bool),
-    ("rules_violations", "", int),
-    ("rules_margin", "", float),
+    ("rules_violations", "", int, "low"),
+    ("rules_margin", "", float, "high"),
     better="high",
     help="rule check: pass, number of findings, and the tightest (measured - limit) / limit (negative when broken)",
 )
