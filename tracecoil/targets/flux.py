@@ -20,10 +20,12 @@ Each segment is cut into pieces no longer than ``piece_factor`` (default
 1) times its closest distance d to the magnet over all poses, and each
 piece gets ``order`` (default 4) Gauss-Legendre points. A is analytic
 along the copper away from the magnet, so the error falls geometrically
-with d/h (Gauss-Legendre on a Bernstein ellipse). Measured on the
-speed-pickup template (10 mm, 4 layers, magnet 0.4 mm above the copper),
-against order 8 with pieces of d/4: 4e-10 relative with the defaults,
-1.5e-7 with pieces of 2d, 4e-8 with 3 points per piece of d. Distances
+with d/h (Gauss-Legendre on a Bernstein ellipse). Measured against
+order 8 with pieces of d/4: on the speed-pickup template (10 mm, 4
+layers, cylinder 0.4 mm above the copper) 4e-10 relative with the
+defaults, 1.5e-7 with pieces of 2d, 4e-8 with 3 points per piece; a
+tilted block over a single square loop, 3e-8 with the defaults (a block's
+edges make its potential less smooth than a cylinder's). Distances
 are exact point-to-solid distances evaluated at 0.2 mm spacing along the
 copper (the spacing and, for long motions, the pose subsampling are
 subtracted as slack).

@@ -187,6 +187,8 @@ def remanence(grade: str) -> float:
 
 
 def _br(remanence_t, grade, where):
+    if remanence_t is not None and grade is not None and remanence_t == remanence(grade):
+        return remanence_t  # both, consistent: a copy made by ``placed``
     if (remanence_t is None) == (grade is None):
         raise SpecError(f"{where}: give exactly one of remanence_t (T) or grade (e.g. 'N42'); "
                         f"got remanence_t={remanence_t!r}, grade={grade!r}")
@@ -868,6 +870,8 @@ class CylinderMagnet(Magnet):
 
     def __post_init__(self):
         self._set_position()
+        if self.diameter_mm is not None and self.radius_mm is not None and self.diameter_mm == 2 * self.radius_mm:
+            object.__setattr__(self, "radius_mm", None)  # both, consistent: a copy made by ``placed``
         if (self.diameter_mm is None) == (self.radius_mm is None):
             raise SpecError("cylinder: give exactly one of diameter_mm or radius_mm")
         if self.diameter_mm is not None:
