@@ -16,7 +16,11 @@ rule) gives a negative EMF. Into a load resistor across the terminals the
 current i (from B through the load back to A) obeys the first-order
 circuit::
 
-    L di/dt + (R_coil + R_load) i = emf(t),   i(0) = 0,   v_load = R_load i
+    L di/dt + (R_coil + R_load) i = emf(t),   v_load = R_load i
+
+starting settled, i(0) = emf(0) / (R_coil + R_load) (as if the first EMF
+value had been present for long; for a magnet starting far away this is
+i(0) = 0),
 
 with L and R_coil of the coil itself (partial-inductance model and DC
 resistance, or given by the caller).
@@ -109,8 +113,8 @@ def emf_from_flux(flux_ext, dt):
     return -d4, err
 
 
-def load_current(emf_v, dt, *, resistance_ohm, inductance_h):
-    """Current (A) of the series R-L circuit driven by ``emf_v``, i(0) = 0.
+def load_current(emf_v, dt, *, resistance_ohm, inductance_h, initial_current_a=None):
+    """Current (A) of the series R-L circuit driven by ``emf_v``.
 
     Exact for an EMF linear between samples (module docstring).
 
@@ -124,6 +128,9 @@ def load_current(emf_v, dt, *, resistance_ohm, inductance_h):
         Total series resistance (ohm), > 0.
     inductance_h : float
         Series inductance (H), >= 0.
+    initial_current_a : float, optional
+        Current at the first sample; default emf_v[0] / resistance_ohm
+        (the circuit settled to the first value).
 
     Returns
     -------
@@ -150,6 +157,7 @@ def load_current(emf_v, dt, *, resistance_ohm, inductance_h):
         return e.copy()
     if L == 0:
         return e / R
+    i0 = e[0] / R if initial_current_a is None else float(initial_current_a)
     h = float(dt)
     tau = L / R
     one_minus_a = -math.expm1(-h / tau)
@@ -157,8 +165,8 @@ def load_current(emf_v, dt, *, resistance_ohm, inductance_h):
     g = tau / h * one_minus_a
     b1 = (1.0 - g) / R
     b0 = (g - a) / R
-    # y[n] = a y[n-1] + b1 e[n] + b0 e[n-1]; the initial state makes y[0] = 0
-    i, _ = lfilter([b1, b0], [1.0, -a], e, zi=[-b1 * e[0]])
+    # y[n] = a y[n-1] + b1 e[n] + b0 e[n-1]; the initial state makes y[0] = i0
+    i, _ = lfilter([b1, b0], [1.0, -a], e, zi=[i0 - b1 * e[0]])
     return i
 
 
