@@ -209,7 +209,8 @@ def _magnet_examples():
 @pytest.mark.parametrize("name", _magnet_examples())
 def test_bundled_examples_are_resolved_by_the_automatic_sampling(name):
     d = load_design(template_path(name))
-    s = signal(coil_from_design(d), target_from_table(d.tables["target"]), motion_from_table(d.tables["motion"]))
+    target, options = target_from_table(d.tables["target"])
+    s = signal(coil_from_design(d), target, motion_from_table(d.tables["motion"]), **options)
     assert s.peak_emf_v > 0 and s.emf_error_v < 0.01 * s.peak_emf_v
 
 

@@ -48,13 +48,17 @@ def run(args) -> int:
                             "(e.g. kind = 'linear', start_mm, direction, speed_m_s, distance_mm)")
     base = Path(design.source).parent if design.source else None
     try:
-        target = target_from_table(tables["target"], base_dir=base)
+        target, options = target_from_table(tables["target"], base_dir=base)
         motion = motion_from_table(tables["motion"], base_dir=base)
+        if "receiver" in tables:
+            from .targets.coupling import receiver_from_table
+
+            receiver, rx_options = receiver_from_table(tables["receiver"], board=design.board)
+            options.update(receiver=receiver, **rx_options)
     except SpecError as e:
         raise SpecError(f"{design.name}: {e}") from None
     coil = coil_from_design(design)
-    options = {"receiver": tables["receiver"]} if "receiver" in tables else {}
-    result = signal(coil, target, motion, load_ohm=args.load, samples=args.samples, **options)
+    result = signal(coil, target, motion, load_ohm=args.load, samples=args.samples, name=design.name, **options)
     written = result.write(args.out, f"{design.name}-signal")
     if args.json:
         print(json.dumps(result.to_dict(), allow_nan=False))

@@ -412,7 +412,8 @@ def signal(coil, target, motion, *, load_ohm=None, samples=None, per_feature=PER
     ``CylinderMagnet``, ``BlockMagnet``) gives a :class:`MagnetSignal`; a
     conductive plate is handed to
     ``tracecoil.targets.conductive.plate_signal(coil, plate, motion, ...)``
-    with ``samples``, ``load_ohm`` (when given) and ``**options``.
+    with ``samples``, ``load_ohm``, ``name`` (when given) and ``**options``
+    (``receiver``, ``freq_hz``, ... see that function).
 
     Parameters
     ----------
@@ -469,7 +470,7 @@ def signal(coil, target, motion, *, load_ohm=None, samples=None, per_feature=PER
         plate_cls = getattr(mod, "Plate", None)
         if plate_cls is None or not isinstance(target, plate_cls) or not hasattr(mod, "plate_signal"):
             raise SpecError(f"target must be a Dipole, CylinderMagnet, BlockMagnet or Plate; got {type(target).__name__}")
-        extra = {k: v for k, v in (("samples", samples), ("load_ohm", load_ohm)) if v is not None}
+        extra = {k: v for k, v in (("samples", samples), ("load_ohm", load_ohm), ("name", name)) if v is not None}
         return mod.plate_signal(coil, target, motion, **extra, **options)
     if options:
         raise SpecError(f"unknown options for a magnet signal: {', '.join(sorted(options))}"
@@ -537,19 +538,25 @@ def signal(coil, target, motion, *, load_ohm=None, samples=None, per_feature=PER
 def target_from_table(values: dict, *, base_dir=None):
     """Build a target from a design file's ``[target]`` table.
 
-    Magnet kinds ('dipole', 'cylinder', 'block') are built here; other
-    kinds are handed to ``tracecoil.targets.conductive.target_from_table``.
+    Magnet kinds ('dipole', 'cylinder', 'block') are built here; 'plate' is
+    handed to ``tracecoil.targets.conductive.plate_from_table``.
+
+    Returns
+    -------
+    target : magnet or Plate
+    options : dict
+        Keyword arguments for :func:`signal` that the table gives (solver
+        settings of a conductive target; empty for a magnet).
+
+    >>> m, opts = target_from_table({"kind": "dipole", "moment_am2": [0, 0, 0.01]})
+    >>> type(m).__name__, opts
+    ('Dipole', {})
     """
     if not isinstance(values, dict):
         raise SpecError(f"[target] must be a table of keys; got {type(values).__name__}")
     kind = values.get("kind")
     if kind in MAGNET_KINDS:
-        return magnet_from_table(values)
-    mod = None
-    try:
-        mod = _conductive_module()
-    except SpecError:
-        pass
-    if mod is not None and hasattr(mod, "target_from_table"):
-        return mod.target_from_table(values, base_dir=base_dir)
-    raise SpecError(f"[target] kind must be one of {', '.join(repr(k) for k in MAGNET_KINDS)}; got {kind!r}")
+        return magnet_from_table(values), {}
+    if kind == "plate":
+        return _conductive_module().plate_from_table(values)
+    raise SpecError(f"[target] kind must be one of {', '.join(repr(k) for k in MAGNET_KINDS + ('plate',))}; got {kind!r}")
