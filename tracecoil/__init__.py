@@ -12,3 +12,4 @@ from .generators import build_coil, coil_from_design, custom_coil, max_turns, sp
 from .layout import Coil, Stackup, Step, Terminal, Trace, Via
 from .predict import Prediction, frequency_sweep, predict
 from .rules import CheckResult, Finding, RuleSet, check, load_rules
+from .targets import BlockMagnet, Circular, CylinderMagnet, Dipole, Linear, Table, signal
