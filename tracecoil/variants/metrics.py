@@ -23,8 +23,8 @@ value silently.
 >>> from tracecoil.design import design_from_dict
 >>> d = design_from_dict({"coil": {"shape": "square", "outer_mm": 10, "turns": 3, "width_mm": 0.3, "gap_mm": 0.3}})
 >>> row = evaluate(d, ["resistance_dc", "rules"])
->>> round(row["resistance_dc_ohm"], 4), row["rules_ok"], row["rules_violations"]
-(0.1693, True, 0)
+>>> round(row["resistance_dc_ohm"], 2), row["rules_ok"], row["rules_violations"]
+(0.17, True, 0)
 """
 
 from __future__ import annotations

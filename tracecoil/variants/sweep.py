@@ -31,8 +31,8 @@ the varied parameters (:func:`~tracecoil.variants.space.variant_id`).
 >>> from tracecoil.design import design_from_dict
 >>> base = design_from_dict({"coil": {"shape": "square", "outer_mm": 8, "turns": 2, "width_mm": 0.3, "gap_mm": 0.3}})
 >>> rows = sweep(base, {"turns": "2:3"}, ["resistance_dc"], executor="serial", progress=False)
->>> [(r["turns"], round(r["resistance_dc_ohm"], 4), r["error"]) for r in rows]
-[(2, 0.0983, None), (3, 0.1297, None)]
+>>> [(r["turns"], round(r["resistance_dc_ohm"], 2), r["error"]) for r in rows]
+[(2, 0.1, None), (3, 0.13, None)]
 """
 
 from __future__ import annotations
