@@ -74,7 +74,7 @@ from __future__ import annotations
 
 import difflib
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
