@@ -260,6 +260,15 @@ def test_torn_last_line_is_dropped_and_recomputed(base, tmp_path):
     assert out.read_text().splitlines() == [l.rstrip("\n") for l in lines[:-1]] + [lines[-1].rstrip("\n")]
 
 
+def test_torn_header_starts_over(base, tmp_path):
+    out = tmp_path / "s.csv"
+    ref = sweep(base, {"turns": [2, 3]}, ["resistance_dc"], out_csv=out, executor="serial", progress=False)
+    out.write_text("variant_id,tur")  # killed while writing the header
+    rows = sweep(base, {"turns": [2, 3]}, ["resistance_dc"], out_csv=out, resume=True, executor="serial", progress=False)
+    assert rows == ref
+    assert len(out.read_text().splitlines()) == 3
+
+
 def test_existing_file_needs_resume_and_the_same_sweep(base, tmp_path):
     out = tmp_path / "s.csv"
     sweep(base, {"turns": [2, 3]}, ["resistance_dc"], out_csv=out, executor="serial", progress=False)

@@ -220,10 +220,7 @@ class ResultsFile:
 
         self.path.parent.mkdir(parents=True, exist_ok=True)
         write_json(meta_path(self.path), meta)
-        with open(self.path, "w", encoding="utf-8", newline="") as f:
-            f.write(format_row(dict(zip(self.header, self.header)), self.header))
-            f.flush()
-            os.fsync(f.fileno())
+        self._write_header()
         _fsync_dir(self.path.parent)
 
     def _read(self):
@@ -235,9 +232,7 @@ class ResultsFile:
         text = data[:keep].decode("utf-8", errors="strict")
         lines = text.splitlines(keepends=True)
         if not lines:  # even the header was torn
-            with open(self.path, "r+b") as f:
-                f.truncate(0)
-            self._start_header_only()
+            self._write_header()
             return
         head = next(csv.reader([lines[0]]))
         if head != self.header:
@@ -264,7 +259,7 @@ class ResultsFile:
                 f.flush()
                 os.fsync(f.fileno())
 
-    def _start_header_only(self):
+    def _write_header(self):
         with open(self.path, "w", encoding="utf-8", newline="") as f:
             f.write(format_row(dict(zip(self.header, self.header)), self.header))
             f.flush()
