@@ -18,7 +18,7 @@ def add_parser(sub):
     p.add_argument("--tank-cap", default=None, metavar="F", help="capacitor across the coil for the tank resonance, in F (e.g. 1n, 470p)")
     p.add_argument("--json", action="store_true", help="print the JSON document instead of the table")
     p.add_argument("--out", default="out", metavar="DIR", help="output folder (default: out)")
-    p.add_argument("--points", type=int, default=25, metavar="N", help="frequencies in the sweep plot (default 25)")
+    p.add_argument("--points", type=int, default=6, metavar="N", help="frequencies where the plot runs the filament model, up to 4x --freq (default 6; it is the slow part)")
     p.add_argument("--no-files", action="store_true", help="print only; write nothing")
     p.set_defaults(run=run)
 
@@ -49,16 +49,26 @@ def run(args) -> int:
 
     from .cmd_build import load_design_arg
     from .generators import coil_from_design
-    from .predict import frequency_sweep, predict, sweep_frequencies, write_outputs
+    from .errors import SpecError
+    from .predict import filament_frequencies, frequency_sweep, predict, sweep_frequencies, write_outputs
 
     design = load_design_arg(args.design)
     coil = coil_from_design(design)
+    if not 1 <= args.points <= 50:
+        raise SpecError(f"--points must be between 1 and 50; got {args.points}")
     freq = parse_si(args.freq, "--freq")
     tank = None if args.tank_cap is None else parse_si(args.tank_cap, "--tank-cap")
     pred = predict(coil, freq_hz=freq, temperature_c=args.temperature, tank_capacitance_f=tank)
     written = {}
     if not args.no_files:
-        sweep = frequency_sweep(coil, sweep_frequencies(freq, pred.srf_hz, points=args.points), temperature_c=args.temperature, capacitance_f=pred.capacitance_f)
+        dense = sweep_frequencies(freq, pred.srf_hz)
+        sweep = frequency_sweep(
+            coil,
+            dense,
+            temperature_c=args.temperature,
+            capacitance_f=pred.capacitance_f,
+            filament_hz=filament_frequencies(freq, dense, points=args.points),
+        )
         written = write_outputs(pred, coil, args.out, sweep=sweep)
     if args.json:
         print(json.dumps(pred.to_dict(), indent=2, allow_nan=False))

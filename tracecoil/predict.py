@@ -31,7 +31,8 @@ from .errors import SpecError
 from .physics import capacitance as _cap
 from .physics import circuit as _cc
 from .physics import resistance as _res
-from .physics.materials import copper_resistivity
+from .physics.inductance import impedance as _impedance
+from .physics.inductance import inductance as _inductance
 
 # What each number can be trusted to; repeated in the JSON and the README.
 ACCURACY = {
@@ -75,12 +76,6 @@ def _check_temperature(temperature_c):
 # ----------------------------------------------------------------------------
 
 
-def _inductance_model():
-    from .physics import inductance as ind
-
-    return ind
-
-
 def core_inductance(coil):
     """Low-frequency inductance from the partial-inductance model.
 
@@ -89,28 +84,18 @@ def core_inductance(coil):
     tracecoil.physics.inductance.InductanceResult
         ``float(result)`` is L (H); ``matrix_h`` splits it by layer.
     """
-    return _inductance_model().inductance(coil)
-
-
-def filament_model_available() -> bool:
-    """True when the partial-inductance model's AC solver (skin and
-    proximity effect, ``tracecoil.physics.impedance``) is installed."""
-    import importlib.util
-
-    return importlib.util.find_spec("tracecoil.physics.impedance") is not None
+    return _inductance(coil)
 
 
 METHOD_FILAMENT = "filament model (skin and proximity effect)"
-METHOD_CLOSED = "closed-form plate model (skin effect only, a lower bound)"
 
 
 def core_impedance(coil, freqs_hz, *, temperature_c=20.0):
-    """L(f) (H) and R(f) (ohm) with copper at ``temperature_c``.
-
-    From the partial-inductance model's AC solution (filaments across each
-    cross-section: skin and proximity effect) when it is available;
-    otherwise L(f) is the low-frequency L and R(f) the closed-form plate
-    model, and ``method`` says so.
+    """L(f) (H) and R(f) (ohm) from the partial-inductance model's AC
+    solution (:func:`tracecoil.physics.inductance.impedance`: sub-bars
+    across each cross-section, skin and proximity effect), copper at
+    ``temperature_c``. Each frequency is solved with the cross-section
+    subdivision its own skin depth needs.
 
     Parameters
     ----------
@@ -119,21 +104,13 @@ def core_impedance(coil, freqs_hz, *, temperature_c=20.0):
     Returns
     -------
     l_h, r_ohm : ndarray, shape (n,)
-    method : str
-        :data:`METHOD_FILAMENT` or :data:`METHOD_CLOSED`.
     """
     freqs = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
     l_h, r_ohm = np.empty(len(freqs)), np.empty(len(freqs))
-    if not filament_model_available():
-        l_h[:] = float(core_inductance(coil).inductance_h)
-        r_ohm[:] = [_res.ac_resistance(coil, f, temperature_c=temperature_c) for f in freqs]
-        return l_h, r_ohm, METHOD_CLOSED
-    ind = _inductance_model()
-    rho = copper_resistivity(temperature_c)
     for k, f in enumerate(freqs):
-        res = ind.inductance(coil, freq_hz=float(f), resistivity_ohm_m=rho)
-        l_h[k], r_ohm[k] = res.inductance_h, res.resistance_ohm
-    return l_h, r_ohm, METHOD_FILAMENT
+        z = _impedance(coil, [float(f)], temperature_c=temperature_c)
+        l_h[k], r_ohm[k] = z.inductance_h[0], z.resistance_ohm[0]
+    return l_h, r_ohm
 
 
 # ----------------------------------------------------------------------------
@@ -365,9 +342,8 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
     l_dc = float(l_model.inductance_h)
     r_dc = _res.dc_resistance(coil, temperature_c=t)
     r_closed = _res.ac_resistance(coil, f, temperature_c=t)
-    (l_f,), (r_f,), method = core_impedance(coil, [f], temperature_c=t)
-    if method != METHOD_FILAMENT:
-        notes.append("R(f) and L(f): the filament AC solver is not available; closed-form skin effect only")
+    (l_f,), (r_f,) = core_impedance(coil, [f], temperature_c=t)
+    method = METHOD_FILAMENT
     est = _cap.capacitance(coil, cuts=capacitance_cuts)
     c = est.total_f
     # The SRF uses the same L as the SPICE subcircuit: L(f) at the frequency.
@@ -385,7 +361,7 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
             f"the frequency is above a third of the estimated self-resonance ({srf:.4g} Hz): the apparent inductance "
             "and Q depend on the capacitance estimate (+-30-50 %)"
         )
-    if method == METHOD_FILAMENT and r_f < 0.98 * r_closed:
+    if r_f < 0.98 * r_closed:
         notes.append("the filament model's R(f) is below the closed-form plate model; check its discretisation")
 
     tank = None
@@ -469,43 +445,60 @@ def _layer_inductance_shares(coil, result) -> dict:
 
 @dataclass(frozen=True)
 class Sweep:
-    """L(f), R(f) and Q(f) over frequency (SI units; arrays of shape (n,)).
+    """L(f), R(f) and Q(f) over frequency (SI units).
 
-    ``resistance_ohm`` and ``inductance_h`` come from the partial-inductance
-    model; ``resistance_closed_form_ohm`` is the plate skin-effect estimate;
-    ``q`` is w L / R; ``q_with_capacitance`` and ``apparent_inductance_h``
-    include the parasitic capacitance ``capacitance_f``.
+    Two sets of frequencies: the filament model (skin and proximity effect;
+    costly at high frequency) at ``filament_hz``, and the closed-form
+    quantities, cheap, at every ``frequency_hz``.
+
+    Attributes
+    ----------
+    frequency_hz : ndarray, shape (n,)
+    resistance_closed_form_ohm : ndarray, shape (n,)
+        Plate skin-effect model (a lower bound, no proximity effect).
+    apparent_inductance_h, q_with_capacitance : ndarray, shape (n,)
+        Im Z / w and Im Z / Re Z at the terminals with the parasitic
+        capacitance, using L(f) interpolated from the filament points (held
+        constant beyond them) and R(f) interpolated likewise on the ratio
+        to the closed form.
+    filament_hz : ndarray, shape (m,)
+    inductance_h, resistance_ohm, q : ndarray, shape (m,)
+        The filament model's L(f), R(f) and w L / R.
+    capacitance_f, srf_hz, resistance_dc_ohm, inductance_dc_h : float
     """
 
     frequency_hz: np.ndarray
+    resistance_closed_form_ohm: np.ndarray
+    apparent_inductance_h: np.ndarray
+    q_with_capacitance: np.ndarray
+    filament_hz: np.ndarray
     inductance_h: np.ndarray
     resistance_ohm: np.ndarray
-    resistance_closed_form_ohm: np.ndarray
     q: np.ndarray
-    q_with_capacitance: np.ndarray
-    apparent_inductance_h: np.ndarray
     capacitance_f: float
     srf_hz: float
     resistance_dc_ohm: float
-    method: str = METHOD_FILAMENT
+    inductance_dc_h: float
 
     def to_dict(self) -> dict:
         def arr(a):
             return [float(x) if math.isfinite(x) else None for x in np.asarray(a, float)]
 
         return {
-            "method": self.method,
+            "filament_model": {
+                "frequency_hz": arr(self.filament_hz),
+                "inductance_h": arr(self.inductance_h),
+                "resistance_ohm": arr(self.resistance_ohm),
+                "q": arr(self.q),
+            },
             "frequency_hz": arr(self.frequency_hz),
-            "inductance_h": arr(self.inductance_h),
-            "resistance_ohm": arr(self.resistance_ohm),
             "resistance_closed_form_ohm": arr(self.resistance_closed_form_ohm),
-            "q": arr(self.q),
-            "q_with_capacitance": arr(self.q_with_capacitance),
             "apparent_inductance_h": arr(self.apparent_inductance_h),
+            "q_with_capacitance": arr(self.q_with_capacitance),
         }
 
 
-def sweep_frequencies(freq_hz: float, srf_hz: float, *, points: int = 25) -> np.ndarray:
+def sweep_frequencies(freq_hz: float, srf_hz: float, *, points: int = 40) -> np.ndarray:
     """Log-spaced sweep around an operating frequency: from a hundredth of
     it (or of the SRF, if lower) up to 1.5 x the SRF, or 100 x the
     frequency when the SRF is unknown; the operating frequency is
@@ -523,18 +516,35 @@ def sweep_frequencies(freq_hz: float, srf_hz: float, *, points: int = 25) -> np.
     return np.unique(np.append(f, freq_hz))
 
 
-def frequency_sweep(coil, freqs_hz, *, temperature_c=20.0, capacitance_f=None) -> Sweep:
-    """L(f), R(f) and Q(f) at each frequency.
+def filament_frequencies(freq_hz: float, sweep_hz, *, points: int = 6, above: float = 4.0) -> np.ndarray:
+    """Where to run the filament model in a sweep: ``points`` log-spaced
+    from the sweep's start to ``above`` x the operating frequency (the
+    model's cost grows with frequency), plus the operating frequency.
+
+    >>> filament_frequencies(1e6, np.geomspace(1e4, 1e8, 9), points=3).tolist()
+    [10000.0, 200000.0, 1000000.0, 4000000.0]
+    """
+    sweep_hz = np.asarray(sweep_hz, dtype=float)
+    hi = min(float(sweep_hz.max()), above * freq_hz)
+    lo = min(float(sweep_hz.min()), hi)
+    f = np.geomspace(lo, hi, points) if points > 1 else np.array([hi])
+    return np.unique(np.round(np.append(f, freq_hz), 6))
+
+
+def frequency_sweep(coil, freqs_hz, *, temperature_c=20.0, capacitance_f=None, filament_hz=None) -> Sweep:
+    """L(f), R(f) and Q(f) over frequency.
 
     Parameters
     ----------
     coil : tracecoil.layout.Coil
     freqs_hz : array_like, shape (n,)
-        Frequencies (Hz).
+        Frequencies (Hz) for the closed-form quantities.
     temperature_c : float
     capacitance_f : float or None
         Parasitic capacitance; estimated with
         :func:`tracecoil.physics.capacitance.capacitance` when None.
+    filament_hz : array_like or None
+        Frequencies for the filament model (default: ``freqs_hz``).
 
     Returns
     -------
@@ -542,24 +552,33 @@ def frequency_sweep(coil, freqs_hz, *, temperature_c=20.0, capacitance_f=None) -
     """
     t = _check_temperature(temperature_c)
     f = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
-    for x in f:
+    ff = f if filament_hz is None else np.atleast_1d(np.asarray(filament_hz, dtype=float))
+    for x in np.concatenate([f, ff]):
         _check_freq(x, "freqs_hz")
+    f, ff = np.sort(f), np.sort(ff)
     c = _cap.capacitance(coil).total_f if capacitance_f is None else float(capacitance_f)
-    l_f, r_f, method = core_impedance(coil, f, temperature_c=t)
+    l_ff, r_ff = core_impedance(coil, ff, temperature_c=t)
     r_cf = np.array([_res.ac_resistance(coil, x, temperature_c=t) for x in f])
+    r_cf_at_ff = np.array([_res.ac_resistance(coil, x, temperature_c=t) for x in ff])
+    # Between and beyond the filament points: L held/interpolated in log f,
+    # R as the closed form times the interpolated ratio of the two models.
+    lf = np.log(f)
+    l_interp = np.interp(lf, np.log(ff), l_ff)
+    r_interp = r_cf * np.interp(lf, np.log(ff), r_ff / r_cf_at_ff)
     l0 = float(core_inductance(coil).inductance_h)
     return Sweep(
         frequency_hz=f,
-        inductance_h=l_f,
-        resistance_ohm=r_f,
         resistance_closed_form_ohm=r_cf,
-        q=_cc.quality_factor(f, l_f, r_f),
-        q_with_capacitance=_cc.loaded_quality_factor(f, l_f, r_f, c),
-        apparent_inductance_h=_cc.apparent_inductance(f, l_f, r_f, c),
+        apparent_inductance_h=_cc.apparent_inductance(f, l_interp, r_interp, c),
+        q_with_capacitance=_cc.loaded_quality_factor(f, l_interp, r_interp, c),
+        filament_hz=ff,
+        inductance_h=l_ff,
+        resistance_ohm=r_ff,
+        q=_cc.quality_factor(ff, l_ff, r_ff),
         capacitance_f=c,
         srf_hz=float(_cc.resonant_frequency(l0, c)) if c > 0 else math.inf,
         resistance_dc_ohm=_res.dc_resistance(coil, temperature_c=t),
-        method=method,
+        inductance_dc_h=l0,
     )
 
 
@@ -609,27 +628,27 @@ def write_outputs(prediction: Prediction, coil, out_dir, *, sweep: Sweep | None 
 
 
 def plot_sweep(sweep: Sweep, path, *, title: str = "", mark_hz: float | None = None) -> None:
-    """Three stacked panels against log frequency: L (model and apparent,
-    with C), R (model, closed form, DC), Q (w L / R and with C). PNG."""
+    """Three stacked panels against log frequency, PNG: L (filament model
+    points, apparent L with C), R (filament model points, closed form, DC),
+    Q (filament model points, Q at the terminals with C)."""
     from matplotlib.figure import Figure
 
-    f = sweep.frequency_hz
+    f, ff = sweep.frequency_hz, sweep.filament_hz
     fig = Figure(figsize=(7.5, 8.5), dpi=120)
     ax_l, ax_r, ax_q = fig.subplots(3, 1, sharex=True)
-    ax_l.plot(f, sweep.inductance_h * 1e6, "o-", ms=3, label="L(f), partial-inductance model" if sweep.method == METHOD_FILAMENT else "L, partial-inductance model (low f)")
     below = f < 0.97 * sweep.srf_hz
-    ax_l.plot(f[below], sweep.apparent_inductance_h[below] * 1e6, "--", label="apparent L at the terminals (with C)")
+    ax_l.plot(f[below], sweep.apparent_inductance_h[below] * 1e6, "-", color="tab:orange", label="apparent L at the terminals (with C)")
+    ax_l.plot(ff, sweep.inductance_h * 1e6, "o", ms=4, color="tab:blue", label="L(f), filament model")
     ax_l.set_ylabel("inductance (uH)")
     # The apparent L grows without bound at the SRF: keep the model's L readable.
     ax_l.set_ylim(0, 2.5 * float(np.nanmax(sweep.inductance_h)) * 1e6)
-    if sweep.method == METHOD_FILAMENT:
-        ax_r.loglog(f, sweep.resistance_ohm, "o-", ms=3, label="R(f), filament model")
-    ax_r.loglog(f, sweep.resistance_closed_form_ohm, "--", label="R(f), plate skin-effect model (lower bound)")
+    ax_r.loglog(f, sweep.resistance_closed_form_ohm, "--", color="tab:orange", label="plate skin-effect model (lower bound)")
+    ax_r.loglog(ff, sweep.resistance_ohm, "o", ms=4, color="tab:blue", label="R(f), filament model (skin + proximity)")
     ax_r.axhline(sweep.resistance_dc_ohm, color="0.4", lw=0.8, label="R DC")
     ax_r.set_ylabel("resistance (ohm)")
-    ax_q.plot(f, sweep.q, "o-", ms=3, label="Q = wL/R")
     q_c = np.where(sweep.q_with_capacitance > 0, sweep.q_with_capacitance, np.nan)
-    ax_q.plot(f, q_c, "--", label="Q at the terminals (with C)")
+    ax_q.plot(f, q_c, "-", color="tab:orange", label="Q at the terminals (with C; R between points from the closed form)")
+    ax_q.plot(ff, sweep.q, "o", ms=4, color="tab:blue", label="Q = wL/R, filament model")
     ax_q.set_ylabel("Q")
     ax_q.set_xlabel("frequency (Hz)")
     ax_q.set_xscale("log")
