@@ -1,26 +1,14 @@
 """Physics of PCB coils: conductor model, magnetic field, inductance, impedance.
 
-``conductors`` turns a :class:`~tracecoil.layout.Coil` (millimetres) into
-straight segments in SI units; ``kernels`` holds the pure-array formulas
-(Biot-Savart, Neumann, Hoer & Love); ``field``, ``inductance`` and the
-other modules here (resistance, capacitance, circuit, materials) build the
-coil-level quantities on top of them.
+Modules (import them by name; this package deliberately re-exports nothing,
+so that ``tracecoil.physics.inductance`` and ``tracecoil.physics.field``
+stay the modules rather than the functions of the same names):
+
+* ``conductors``: a :class:`~tracecoil.layout.Coil` (millimetres) as straight
+  segments in SI units;
+* ``kernels``: the pure-array formulas (Biot-Savart, Neumann, Hoer & Love);
+* ``field``: B, A and flux linkage of a coil;
+* ``inductance``: partial-inductance model, mutual inductance, coupling,
+  impedance with skin and proximity effect;
+* ``resistance``, ``capacitance``, ``circuit``, ``materials``.
 """
-
-from .conductors import Conductors, conductors
-from .field import field, flux_linkage, vector_potential
-from .inductance import ImpedanceResult, InductanceResult, coupling, impedance, inductance, mutual_inductance
-
-__all__ = [
-    "Conductors",
-    "conductors",
-    "field",
-    "vector_potential",
-    "flux_linkage",
-    "inductance",
-    "mutual_inductance",
-    "coupling",
-    "impedance",
-    "InductanceResult",
-    "ImpedanceResult",
-]

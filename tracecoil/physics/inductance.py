@@ -20,14 +20,19 @@ Self terms
     69C(2), 1965 (:func:`~tracecoil.physics.kernels.bar_self`, evaluated
     without float64 cancellation). Vias: tube with the geometric mean
     distance of the annulus (:func:`~tracecoil.physics.kernels.tube_self`).
-Near pairs (closer than ``near`` x the longer segment or 12 trace widths)
+Near pairs (closer than 1.5 x the longer segment or 6 trace widths)
     Parallel traces: the exact Hoer & Love mutual inductance of the two
     bars. Other pairs: Neumann's formula between filaments in closed form
     (:func:`~tracecoil.physics.kernels.filament_mutual`), averaged over a
     Gauss-Legendre grid of filaments across the width and the thickness of
     both bars. The grid is finest (``filaments`` across the width) for
-    touching pairs and coarsens with distance (2 points up to 12 widths,
-    then 1); this is the discretisation that ``filaments`` refines.
+    touching pairs and coarsens with distance (with the default 4: two
+    points up to 3 widths, then 1); this is the discretisation that
+    ``filaments`` refines. Close consecutive segments at small angles (a
+    finely divided curve) use the exact bars turned parallel, scaled by the
+    ratio of the centreline filaments' values in the true and turned
+    positions (filament grids are poor there: the filaments of the two
+    bars overlap at the inside of the bend).
 All other pairs
     Neumann's double integral by a 2-point Gauss-Legendre rule on each
     segment (centreline filaments), summed in blocks as a dense
@@ -52,6 +57,7 @@ from __future__ import annotations
 
 import math
 import time
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field as dc_field
 
 import numpy as np
@@ -275,10 +281,12 @@ def _near_pairs(ga: _Geo, gb: _Geo, same: bool, filaments: int, near_lengths: fl
     if len(ii) > 1:
         key = np.unique(i * len(mb) + j)
         i, j = key // len(mb), key % len(mb)
-    lw = np.where(ga.via[i] & gb.via[j], 0.0, np.maximum(np.where(ga.via[i], 0, ga.w[i]), np.where(gb.via[j], 0, gb.w[j])))
-    lim = np.maximum(near_lengths * np.maximum(ga.l[i], gb.l[j]), nwid * lw)
-    dm = np.linalg.norm(ma[i] - mb[j], axis=1)
-    keep = dm < lim + 0.5 * (ga.l[i] + gb.l[j])
+    wa = np.where(ga.via, 0.0, ga.w)
+    wb = np.where(gb.via, 0.0, gb.w)
+    lim = np.maximum(near_lengths * np.maximum(ga.l[i], gb.l[j]), nwid * np.maximum(wa[i], wb[j]))
+    dv = ma[i] - mb[j]
+    reach = lim + 0.5 * (ga.l[i] + gb.l[j])
+    keep = np.einsum("ij,ij->i", dv, dv) < reach * reach
     i, j, lim = i[keep], j[keep], lim[keep]
     d = kernels.segment_distance(ga.a[i], ga.b[i], gb.a[j], gb.b[j])
     keep = d < lim
@@ -288,12 +296,13 @@ def _near_pairs(ga: _Geo, gb: _Geo, same: bool, filaments: int, near_lengths: fl
 def _orders(dist, size, finest):
     """Gauss-Legendre points across one cross-section dimension for a pair.
 
-    ``finest`` points for touching pairs, ceil(1.5 finest size / dist)
-    otherwise: with finest = 4, two points up to 6 sizes away, then one.
-    Doubling ``finest`` doubles both the resolution and the reach.
+    ``finest`` points for touching pairs, ceil(0.75 finest size / dist)
+    otherwise: with finest = 4, three points within one size, two up to
+    three sizes away, then one. Doubling ``finest`` doubles both the
+    resolution and the reach.
     """
     with np.errstate(divide="ignore"):
-        n = np.ceil(1.5 * finest * size / dist)
+        n = np.ceil(0.75 * finest * size / dist)
     return np.clip(np.nan_to_num(n, posinf=finest), 1, finest).astype(int)
 
 
@@ -323,7 +332,8 @@ def _filament_grid(ga, gb, i, j, nw, nt):
     k = len(wq)
     out = np.empty(len(i))
     step = max(1, _CHUNK // (k * k))
-    for s0 in range(0, len(i), step):
+
+    def chunk(s0):
         ii, jj = i[s0:s0 + step], j[s0:s0 + step]
 
         def fil(g, idx):
@@ -340,6 +350,15 @@ def _filament_grid(ga, gb, i, j, nw, nt):
         B2 = np.broadcast_to(b2[:, None, :, :], (p, k, k, 3)).reshape(-1, 3)
         m = kernels.filament_mutual(A1, B1, A2, B2, method="closed").reshape(p, k, k)
         out[s0:s0 + step] = np.einsum("pab,a,b->p", m, wq, wq)
+
+    starts = range(0, len(i), step)
+    nthreads = kernels._threads(None)
+    if nthreads > 1 and len(starts) > 1:
+        with ThreadPoolExecutor(max_workers=nthreads) as pool:
+            list(pool.map(chunk, starts))
+    else:
+        for s0 in starts:
+            chunk(s0)
     return out
 
 

@@ -1087,6 +1087,9 @@ def pair_energy(x, j, groups, n_groups, *, x2=None, j2=None, groups2=None, n_gro
     ja, jb = j[oa], j2[ob]
     ga, gb = groups[oa], groups2[ob]
     sqa, sqb = np.einsum("ij,ij->i", xa, xa), np.einsum("ij,ij->i", xb, xb)
+    # augmented coordinates: one product gives |xa|^2 + |xb|^2 - 2 xa.xb
+    xa5 = np.column_stack([xa, sqa, np.ones(len(xa))])
+    xb5 = np.column_stack([-2.0 * xb, np.ones(len(xb)), sqb])
     na, nb = len(xa), len(xb)
     tasks = [(i0, j0) for i0 in range(0, na, block) for j0 in range(i0 if same else 0, nb, block)]
     nthreads = min(_threads(threads), max(1, len(tasks)))
@@ -1103,10 +1106,7 @@ def pair_energy(x, j, groups, n_groups, *, x2=None, j2=None, groups2=None, n_gro
         for i0, j0 in chunk:
             i1, j1 = min(i0 + block, na), min(j0 + block, nb)
             G = buf[: (i1 - i0) * (j1 - j0)].reshape(i1 - i0, j1 - j0)
-            np.matmul(xa[i0:i1], xb[j0:j1].T, out=G)
-            G *= -2.0
-            G += sqa[i0:i1, None]
-            G += sqb[None, j0:j1]
+            np.matmul(xa5[i0:i1], xb5[j0:j1].T, out=G)
             np.maximum(G, 1e-300, out=G)
             np.sqrt(G, out=G)
             np.divide(1.0, G, out=G)
