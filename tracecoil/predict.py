@@ -130,9 +130,9 @@ class LayerShare:
         'top', 'inner1', ..., 'bottom'.
     trace_length_mm : float
         Centreline length of the layer's traces on the current path.
-    resistance_dc_ohm, resistance_ac_ohm : float
+    resistance_dc_ohm, resistance_ac_closed_form_ohm : float
         The layer's power-weighted share of the resistance (f^2 R over its
-        segments), DC and closed-form at the frequency.
+        segments), DC and by the closed-form plate model at the frequency.
     capacitance_turn_to_turn_f : float
         Same-layer part of the capacitance estimate.
     inductance_share_h : float or None
@@ -144,7 +144,7 @@ class LayerShare:
     name: str
     trace_length_mm: float
     resistance_dc_ohm: float
-    resistance_ac_ohm: float
+    resistance_ac_closed_form_ohm: float
     capacitance_turn_to_turn_f: float
     inductance_share_h: float | None = None
 
@@ -223,7 +223,7 @@ class Prediction:
                     "name": s.name,
                     "trace_length_mm": num(s.trace_length_mm),
                     "resistance_dc_ohm": num(s.resistance_dc_ohm),
-                    "resistance_ac_ohm": num(s.resistance_ac_ohm),
+                    "resistance_ac_closed_form_ohm": num(s.resistance_ac_closed_form_ohm),
                     "capacitance_turn_to_turn_f": num(s.capacitance_turn_to_turn_f),
                     "inductance_share_h": None if s.inductance_share_h is None else num(s.inductance_share_h),
                 }
@@ -275,12 +275,12 @@ class Prediction:
         lines = [f"{self.name}"]
         lines += [f"  {k:<{width}}  {v}" for k, v in rows]
         lines.append("")
-        lines.append(f"  {'layer':<8}{'length':>12}{'R dc':>12}{'R ac':>12}{'C same-layer':>14}{'L share':>12}")
+        lines.append(f"  {'layer':<8}{'length':>12}{'R dc':>12}{'R ac (cf)':>12}{'C same-layer':>14}{'L share':>12}")
         for s in self.layers:
             ls = "-" if s.inductance_share_h is None else _eng(s.inductance_share_h, "H")
             lines.append(
                 f"  {s.name:<8}{s.trace_length_mm:>10.1f}mm{_eng(s.resistance_dc_ohm, 'ohm'):>12}"
-                f"{_eng(s.resistance_ac_ohm, 'ohm'):>12}{_eng(s.capacitance_turn_to_turn_f, 'F'):>14}{ls:>12}"
+                f"{_eng(s.resistance_ac_closed_form_ohm, 'ohm'):>12}{_eng(s.capacitance_turn_to_turn_f, 'F'):>14}{ls:>12}"
             )
         lines.append(f"  {'vias':<8}{'':>12}{_eng(self.vias_resistance_dc_ohm, 'ohm'):>12}")
         for c in self.cautions:
@@ -392,13 +392,16 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
                 name=st.layer_name(layer),
                 trace_length_mm=float(length),
                 resistance_dc_ohm=dc_parts[layer],
-                resistance_ac_ohm=ac_parts[layer],
+                resistance_ac_closed_form_ohm=ac_parts[layer],
                 capacitance_turn_to_turn_f=float(est.turn_to_turn_f.get(layer, 0.0)),
                 inductance_share_h=l_shares.get(layer),
             )
         )
     notes.extend(est.notes)
-    notes.append("layer resistances are power-weighted shares (fraction^2 R); the total DC value solves the path network")
+    notes.append(
+        "layer resistances are power-weighted shares (fraction^2 R; AC by the closed-form plate model, cf); "
+        "the total DC value solves the path network"
+    )
     cautions.append(
         "resistance is for the stated copper temperature; high currents heat the traces (see the rule checker's "
         "IPC-2221 current limits) and high voltages need the clearances of the standard and local codes"
