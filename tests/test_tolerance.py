@@ -95,7 +95,8 @@ def test_zero_spread_gives_the_nominal_every_time(design):
     for rec in r.records:
         for col in ("inductance_h", "resistance_dc_ohm", "srf_hz", "q"):
             assert_allclose(rec[col], r.nominal[col], rtol=1e-12)  # identical inputs: only round-off may differ
-    assert all(s["std"] == 0.0 for s in r.stats.values())
+    for s in r.stats.values():  # std of equal values: zero up to the round-off of the mean
+        assert s["std"] <= 1e-12 * abs(s["mean"])
 
 
 def test_spread_of_l_follows_the_first_order_sensitivity(design, coil):

@@ -71,6 +71,15 @@ def run(args) -> int:
     if not any(getattr(tol, k).value for k in PARAMETERS):
         print("note: every spread is zero, so every board equals the nominal; give e.g. --etch-um 20", file=sys.stderr)
     options = options_from(args, d)
+    if options.tank_capacitance_f is not None and args.freq is None and "freq_hz" not in d:
+        # Q, L(f) and R(f) at the tank's own resonance rather than at 1 MHz
+        from dataclasses import replace
+
+        from .variants.metrics import evaluate
+
+        f0 = evaluate(design, ["lc_frequency"], options=options)["lc_frequency_hz"]
+        options = replace(options, freq_hz=float(f"{f0:.6g}"))
+        print(f"frequency for L(f), R(f) and Q: the nominal LC resonance, {options.freq_hz:.6g} Hz (set --freq to choose another)", file=sys.stderr)
     out = Path(args.out)
     csv_path = prepare_csv(args, out, design.name, "tolerance")
     samples = args.samples if args.samples is not None else d.get("samples", 200)
