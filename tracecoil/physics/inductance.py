@@ -55,8 +55,10 @@ better than 0.5 % (ibid.).
 
 from __future__ import annotations
 
+import hashlib
 import math
 import time
+from collections import OrderedDict
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field as dc_field
 
@@ -477,21 +479,49 @@ def partial_matrix(coil_a, coil_b=None, *, filaments=DEFAULT_FILAMENTS, near_len
     labels_a, labels_b : tuple of str
         Group labels.
     """
+    M, lab_a, lab_b, _ = _partial_parts(coil_a, coil_b, filaments=filaments, near_lengths=near_lengths,
+                                        bulk_order=bulk_order)
+    return M.copy(), lab_a, lab_b
+
+
+_CACHE: OrderedDict = OrderedDict()  # recent results, keyed by a digest of the geometry
+_CACHE_SIZE = 8
+
+
+def _digest(cd: Conductors) -> bytes:
+    h = hashlib.blake2b(digest_size=16)
+    for name in ("start_m", "end_m", "width_m", "thickness_m", "fraction", "layer", "kind"):
+        h.update(np.ascontiguousarray(getattr(cd, name)).tobytes())
+    return h.digest()
+
+
+def _partial_parts(coil_a, coil_b=None, *, filaments=DEFAULT_FILAMENTS, near_lengths=NEAR_LENGTHS,
+                   bulk_order=BULK_ORDER):
+    """partial_matrix plus the near-pair list (i, j, distance), cached.
+
+    The last few results are kept, keyed by a digest of the conductor
+    arrays and the options, so that repeated calls on one geometry (an
+    impedance sweep, a prediction) compute the DC model once.
+    """
     filaments = _check_filaments(filaments)
+    if not 0.5 <= float(near_lengths) <= 20:
+        raise SpecError(f"near_lengths must be 0.5..20; got {near_lengths}")
+    if bulk_order not in range(1, 9):
+        raise SpecError(f"bulk_order must be 1..8; got {bulk_order}")
     same = coil_b is None
     cda = _segments(coil_a)
     cdb = cda if same else _segments(coil_b)
     grp_a, lab_a = _groups(cda, coil_a)
     grp_b, lab_b = (grp_a, lab_a) if same else _groups(cdb, coil_b)
+    key = (_digest(cda), None if same else _digest(cdb), lab_a, lab_b, filaments, float(near_lengths), int(bulk_order))
+    if key in _CACHE:
+        _CACHE.move_to_end(key)
+        return _CACHE[key]
     ga = _Geo.of(cda)
     gb = ga if same else _Geo.of(cdb)
     nga, ngb = len(lab_a), len(lab_b)
 
     # far field: every pair by the bulk rule
-    if not 0.5 <= float(near_lengths) <= 20:
-        raise SpecError(f"near_lengths must be 0.5..20; got {near_lengths}")
-    if bulk_order not in range(1, 9):
-        raise SpecError(f"bulk_order must be 1..8; got {bulk_order}")
     pa, ja = _bulk_points(ga, bulk_order)
     pb, jb = (pa, ja) if same else _bulk_points(gb, bulk_order)
     q = pa.shape[1]
@@ -515,7 +545,13 @@ def partial_matrix(coil_a, coil_b=None, *, filaments=DEFAULT_FILAMENTS, near_len
         approx_self = K_MU * _bulk_pair_values(pa, ja, pa, ja, idx, idx, same_segment=True)
         st = self_terms(cda) * cda.fraction**2 - approx_self
         np.add.at(M, (grp_a, grp_a), st)
-    return M, lab_a, lab_b
+    for arr in (M, i, j, dist):
+        arr.setflags(write=False)
+    out = (M, lab_a, lab_b, (i, j, dist))
+    _CACHE[key] = out
+    while len(_CACHE) > _CACHE_SIZE:
+        _CACHE.popitem(last=False)
+    return out
 
 
 # ----------------------------------------------------------------------------
@@ -811,8 +847,8 @@ def _intra_blocks(cd: Conductors, sb: _SubBars, nw, nt, nodes=16):
     return tr, out
 
 
-def _subbar_pairs_mutual(cd: Conductors, sb: _SubBars, i, j, pi, pj):
-    """Mutual inductance of sub-bar pairs pi (of segment i) and pj (of j).
+def _subbar_pairs_mutual(cd: Conductors, sb: _SubBars, iu, ju, pp, pi, pj):
+    """Mutual inductance of sub-bar pairs pi (of segment iu[pp]) and pj (of ju[pp]).
 
     Exactly parallel traces: Hoer & Love bars. Otherwise Neumann's formula
     for the sub-bars' centreline filaments; for nearly parallel pairs
@@ -822,64 +858,67 @@ def _subbar_pairs_mutual(cd: Conductors, sb: _SubBars, i, j, pi, pj):
     effect of their finite cross-sections.
     """
     g = _Geo.of(cd)
-    u_i, u_j = g.u[i], g.u[j]
-    c = np.einsum("ij,ij->i", u_i, u_j)
-    sn = np.linalg.norm(np.cross(u_i, u_j), axis=1)
-    vi, vj = g.via[i], g.via[j]
-    out = np.empty(len(pi))
-    par = (sn < PARALLEL_SIN) & ~vi & ~vj
-    e1, e2 = g.e1[i], g.e2[i]
-    # sub-bar rectangles of j in the cross-section frame of i
+    # geometry per segment pair
+    u_i, u_j = g.u[iu], g.u[ju]
+    c_s = np.einsum("ij,ij->i", u_i, u_j)
+    sn_s = np.linalg.norm(np.cross(u_i, u_j), axis=1)
+    e1, e2 = g.e1[iu], g.e2[iu]
+    f1 = np.einsum("ij,ij->i", g.e1[ju], e1)
+    f2 = np.einsum("ij,ij->i", g.e2[ju], e2)
+    sa = np.einsum("ij,ij->i", g.a[ju] - g.a[iu], u_i)
+    sbb = np.einsum("ij,ij->i", g.b[ju] - g.a[iu], u_i)
+    lo, hi = np.minimum(sa, sbb), np.maximum(sa, sbb)
+    ov_lo, ov_hi = np.maximum(lo, 0.0), np.minimum(hi, g.l[iu])
+    ov = np.maximum(ov_hi - ov_lo, 0.0)
+    lam = np.clip((0.5 * (ov_lo + ov_hi) - sa) / np.where(sbb != sa, sbb - sa, 1.0), 0.0, 1.0)
+    pmid = g.a[ju] + lam[:, None] * (g.b[ju] - g.a[ju]) - g.a[iu]  # j's axis at the overlap middle
+    mid = 0.5 * (g.a[ju] + g.b[ju]) - g.a[iu]
+    my = np.where(sn_s < PARALLEL_SIN, np.einsum("ij,ij->i", mid, e1), np.einsum("ij,ij->i", pmid, e1))
+    mz = np.where(sn_s < PARALLEL_SIN, np.einsum("ij,ij->i", mid, e2), np.einsum("ij,ij->i", pmid, e2))
+    anyvia = g.via[iu] | g.via[ju]
+    par_s = (sn_s < PARALLEL_SIN) & ~anyvia
+    # expand to sub-bar pairs
+    c, sn, par = c_s[pp], sn_s[pp], par_s[pp]
     cy_i = sb.y[pi] + sb.w[pi] / 2
     cz_i = sb.z[pi] + sb.t[pi] / 2
-    oy_j = (sb.y[pj] + sb.w[pj] / 2) * np.einsum("ij,ij->i", g.e1[j], e1)
-    oz_j = (sb.z[pj] + sb.t[pj] / 2) * np.einsum("ij,ij->i", g.e2[j], e2)
-    sa = np.einsum("ij,ij->i", g.a[j] - g.a[i], u_i)
-    sbb = np.einsum("ij,ij->i", g.b[j] - g.a[i], u_i)
-    lo, hi = np.minimum(sa, sbb), np.maximum(sa, sbb)
+    dy = my[pp] + (sb.y[pj] + sb.w[pj] / 2) * f1[pp] - cy_i
+    dz = mz[pp] + (sb.z[pj] + sb.t[pj] / 2) * f2[pp] - cz_i
+    out = np.empty(len(pi))
     if np.any(par):
-        mid = 0.5 * (g.a[j] + g.b[j]) - g.a[i]
-        dy = np.einsum("ij,ij->i", mid, e1) + oy_j - cy_i
-        dz = np.einsum("ij,ij->i", mid, e2) + oz_j - cz_i
-        size1 = np.column_stack([g.l[i], sb.w[pi], sb.t[pi]])
-        size2 = np.column_stack([g.l[j], sb.w[pj], sb.t[pj]])
-        off = np.column_stack([lo, dy + cy_i - sb.w[pj] / 2 - sb.y[pi], dz + cz_i - sb.t[pj] / 2 - sb.z[pi]])
-        out[par] = np.sign(c[par]) * kernels.box_mutual(size1[par], size2[par], off[par])
-    rest = ~par
-    if np.any(rest):
-        r = np.nonzero(rest)[0]
+        q = np.nonzero(par)[0]
+        k = pp[q]
+        size1 = np.column_stack([g.l[iu[k]], sb.w[pi[q]], sb.t[pi[q]]])
+        size2 = np.column_stack([g.l[ju[k]], sb.w[pj[q]], sb.t[pj[q]]])
+        off = np.column_stack([lo[k], dy[q] + cy_i[q] - sb.w[pj[q]] / 2 - sb.y[pi[q]],
+                               dz[q] + cz_i[q] - sb.t[pj[q]] / 2 - sb.z[pi[q]]])
+        out[q] = np.sign(c[q]) * kernels.box_mutual(size1, size2, off)
+    r = np.nonzero(~par)[0]
+    if len(r):
         m = np.empty(len(r))
         for s0 in range(0, len(r), _CHUNK):
             q = r[s0:s0 + _CHUNK]
             m[s0:s0 + _CHUNK] = kernels.filament_mutual(sb.a[pi[q]], sb.b[pi[q]], sb.a[pj[q]], sb.b[pj[q]], method="closed")
         out[r] = m
         # GMD correction for close, nearly parallel sub-bars
-        ov_lo, ov_hi = np.maximum(lo, 0.0), np.minimum(hi, g.l[i])
-        ov = np.maximum(ov_hi - ov_lo, 0.0)
-        tpar = 0.5 * (ov_lo + ov_hi)
-        # point of j's centreline at the middle of the overlap, relative to i's start
-        lam = np.clip((tpar - sa) / np.where(sbb != sa, sbb - sa, 1.0), 0.0, 1.0)
-        pj_mid = g.a[j] + lam[:, None] * (g.b[j] - g.a[j]) - g.a[i]
-        dy = np.einsum("ij,ij->i", pj_mid, e1) + oy_j - cy_i
-        dz = np.einsum("ij,ij->i", pj_mid, e2) + oz_j - cz_i
-        dist = np.hypot(dy, dz)
-        size = np.maximum.reduce([sb.w[pi], sb.t[pi], sb.w[pj], sb.t[pj]])
-        fix = rest & ~vi & ~vj & (sn < 0.3) & (ov > 0) & (dist < 4 * size)
+        dist = np.hypot(dy[r], dz[r])
+        size = np.maximum.reduce([sb.w[pi[r]], sb.t[pi[r]], sb.w[pj[r]], sb.t[pj[r]]])
+        fix = ~anyvia[pp[r]] & (sn[r] < 0.3) & (ov[pp[r]] > 0) & (dist < 4 * size)
         if np.any(fix):
-            lg = kernels.rect_log_gmd(np.column_stack([sb.y[pi], sb.z[pi]])[fix],
-                                      np.column_stack([sb.w[pi], sb.t[pi]])[fix],
-                                      np.column_stack([dy + cy_i - sb.w[pj] / 2, dz + cz_i - sb.t[pj] / 2])[fix],
-                                      np.column_stack([sb.w[pj], sb.t[pj]])[fix])
-            out[fix] += 2 * K_MU * ov[fix] * c[fix] * (np.log(np.maximum(dist[fix], 1e-300)) - lg)
+            q = r[fix]
+            lg = kernels.rect_log_gmd(np.column_stack([sb.y[pi[q]], sb.z[pi[q]]]), np.column_stack([sb.w[pi[q]], sb.t[pi[q]]]),
+                                      np.column_stack([dy[q] + cy_i[q] - sb.w[pj[q]] / 2, dz[q] + cz_i[q] - sb.t[pj[q]] / 2]),
+                                      np.column_stack([sb.w[pj[q]], sb.t[pj[q]]]))
+            out[q] += 2 * K_MU * ov[pp[q]] * c[q] * (np.log(np.maximum(dist[fix], 1e-300)) - lg)
     return out
 
 
-def _near_subbar_matrix(cd: Conductors, sb: _SubBars, filaments):
-    """Sparse sub-bar mutual inductances between close segments (H)."""
+def _near_subbar_matrix(cd: Conductors, sb: _SubBars, near):
+    """Sparse sub-bar mutual inductances between close segments (H);
+    ``near`` is the DC model's near-pair list (i, j, distance)."""
     from scipy import sparse
 
     g = _Geo.of(cd)
-    i, j, dist = _near_pairs(g, g, True, filaments)
+    i, j, dist = near
     wmax = np.maximum(np.where(g.via[i], 0, g.w[i]), np.where(g.via[j], 0, g.w[j]))
     c = np.abs(np.einsum("ij,ij->i", g.u[i], g.u[j]))
     keep = (dist < AC_REACH_WIDTHS * wmax) & (c > 1e-13)
@@ -892,13 +931,11 @@ def _near_subbar_matrix(cd: Conductors, sb: _SubBars, filaments):
             sel = (ki == a_k) & (kj == b_k)
             if not np.any(sel):
                 continue
-            P = int(sel.sum())
-            ii = np.repeat(i[sel], a_k * b_k)
-            jj = np.repeat(j[sel], a_k * b_k)
-            pi = (sb.first[i[sel]][:, None, None] + np.arange(a_k)[None, :, None] + 0 * np.arange(b_k)[None, None, :]).ravel()
-            pj = (sb.first[j[sel]][:, None, None] + 0 * np.arange(a_k)[None, :, None] + np.arange(b_k)[None, None, :]).ravel()
-            m = _subbar_pairs_mutual(cd, sb, ii, jj, pi, pj)
-            del P
+            iu, ju = i[sel], j[sel]
+            pp = np.repeat(np.arange(len(iu)), a_k * b_k)
+            pi = (sb.first[iu][:, None, None] + np.arange(a_k)[None, :, None] + 0 * np.arange(b_k)[None, None, :]).ravel()
+            pj = (sb.first[ju][:, None, None] + 0 * np.arange(a_k)[None, :, None] + np.arange(b_k)[None, None, :]).ravel()
+            m = _subbar_pairs_mutual(cd, sb, iu, ju, pp, pi, pj)
             rows += [pi, pj]
             cols += [pj, pi]
             vals += [m, m]
@@ -992,7 +1029,7 @@ def impedance(coil, freq_hz, *, filaments=DEFAULT_FILAMENTS, cross_section=None,
             raise SpecError(f"cross_section must be (nw, nt) integers; got {cross_section!r}") from None
         if not (1 <= nw <= 32 and 1 <= nt <= 16):
             raise SpecError(f"cross_section must be within (1..32, 1..16); got {cross_section!r}")
-    Mdc, labels, _ = partial_matrix(cd if isinstance(coil, Conductors) else coil, filaments=filaments)
+    Mdc, labels, _, near = _partial_parts(cd if isinstance(coil, Conductors) else coil, filaments=filaments)
     L_dc = float(Mdc.sum())
     sb = _subdivide(cd, nw, nt)
     n, N = len(cd), len(sb.owner)
@@ -1004,7 +1041,7 @@ def impedance(coil, freq_hz, *, filaments=DEFAULT_FILAMENTS, cross_section=None,
     tr, blocks = _intra_blocks(cd, sb, nw, nt)
     vias = np.nonzero(cd.is_via)[0]
     via_self = self_terms(cd.subset(vias)) if len(vias) else np.zeros(0)
-    C = _near_subbar_matrix(cd, sb, filaments)
+    C = _near_subbar_matrix(cd, sb, near)
     u = fr[sb.owner] * a_sub  # uniform (DC) sub-bar currents for 1 A
     K = nw * nt
     tr_idx = sb.first[tr][:, None] + np.arange(K)[None, :]
