@@ -30,7 +30,7 @@ import sys
 import time
 
 BASE = {"coil": {"shape": "square", "outer_mm": 10, "turns": 4, "width_mm": 0.2, "gap_mm": 0.15, "layers": 2}, "board": {"layers": 2}}
-VARY = ["turns=2:7:0.25", "width_mm=0.15:0.3:0.01"]
+VARY = ["turns=2.0:7.0", "width_mm=0.15:0.3"]  # continuous ranges: every sample a distinct variant
 METRICS = ["inductance", "resistance_dc", "rules"]
 
 
@@ -104,6 +104,7 @@ def main() -> int:
         up = f"{base_s / s:8.2f}x" if base_s else "        -"
         print(f"{name:20s} {s:9.2f} {n / s:11.1f} {up}  {same}")
     print(f"dask LocalCluster start-up: {startup:.2f} s (not in the figure above)")
+    print(f"load average at the end: {os.getloadavg()[0]:.2f} (above the worker count, the machine was shared and the ratios understate)")
     print(f"per-task overhead, {args.tasks} trivial tasks one at a time: process pool {pool_task * 1e3:.2f} ms, "
           f"dask {dask_task * 1e3:.2f} ms ({dask_task / pool_task:.1f}x)")
     if base_s:
