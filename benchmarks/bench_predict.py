@@ -8,8 +8,16 @@ capacitance estimate's spread over cut counts (24, 48, 96) as a measure of
 its sampling scatter, and the Python allocation peak (tracemalloc) of one
 ``predict`` call.
 
+The inductance model keeps its partial-inductance matrix for geometry it
+has seen, so L is timed once, on first sight of each design (cold); the
+L,R(f) and predict columns (each one call) then reuse that matrix, as a
+sweep or a second command in the same process would.
+
 No target is asserted: the figures are for the README and for spotting
-regressions.
+regressions. On a machine busy with other work, run with
+OPENBLAS_NUM_THREADS=1: the capacitance model's many small dense solves
+were measured 10-100 times slower when OpenBLAS threads contend for the
+cores.
 
 Run: python benchmarks/bench_predict.py [--repeat N] [--freq HZ]
 """
@@ -20,6 +28,12 @@ import argparse
 import statistics
 import time
 import tracemalloc
+
+
+def cold(fn):
+    t0 = time.perf_counter()
+    fn()
+    return time.perf_counter() - t0
 
 
 def timed(fn, repeat):
@@ -46,17 +60,21 @@ def main() -> None:
     from tracecoil.templates import design_names, template_path
 
     f = args.freq
-    print(f"predict parts at {f:g} Hz, median of {args.repeat} warm runs (s)")
+    import os
+
+    print(f"predict parts at {f:g} Hz (s): R and C median of {args.repeat} warm runs; L first call; L,R(f) and predict one call after it")
+    print(f"OPENBLAS_NUM_THREADS={os.environ.get('OPENBLAS_NUM_THREADS', 'unset')}")
     print(f"{'design':26s}{'segs':>6s}{'R dc':>8s}{'R ac cf':>8s}{'C':>8s}{'L':>8s}{'L,R(f)':>8s}{'predict':>9s}{'C spread':>10s}{'peak MB':>9s}")
     for name in design_names():
-        coil = tracecoil.coil_from_design(tracecoil.load_design(template_path(name)))
+        design = tracecoil.load_design(template_path(name))
+        coil = tracecoil.coil_from_design(design)
         n = len(conductors(coil))
         t_rdc = timed(lambda: res.dc_resistance(coil), args.repeat)
         t_rac = timed(lambda: res.ac_resistance(coil, f), args.repeat)
         t_c = timed(lambda: cap.capacitance(coil), args.repeat)
-        t_l = timed(lambda: core_inductance(coil), args.repeat)
-        t_z = timed(lambda: core_impedance(coil, [f]), 1)
-        t_p = timed(lambda: tracecoil.predict(coil, freq_hz=f), 1)
+        t_l = cold(lambda: core_inductance(tracecoil.coil_from_design(design)))
+        t_z = cold(lambda: core_impedance(tracecoil.coil_from_design(design), [f]))
+        t_p = cold(lambda: tracecoil.predict(tracecoil.coil_from_design(design), freq_hz=f))
         cs = [cap.capacitance(coil, cuts=k).total_f for k in (24, 48, 96)]
         spread = (max(cs) - min(cs)) / cs[1]
         tracemalloc.start()
