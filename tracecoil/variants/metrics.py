@@ -30,7 +30,7 @@ value silently.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields, replace
+from dataclasses import dataclass, fields, replace
 from typing import Callable
 
 from ..errors import SpecError
