@@ -179,8 +179,11 @@ def test_processes_and_dask_local_cluster_give_identical_rows(base):
     procs = sweep(base, SPACE, CHEAP, executor="process", workers=2, progress=False)
     with LocalCluster(n_workers=1, threads_per_worker=1, processes=False, dashboard_address=None) as lc, Client(lc) as client:
         dask = sweep(base, SPACE, CHEAP, cluster=client, batch=2, progress=False)
+        # By scheduler address, as --cluster tcp://HOST:PORT connects (in-process here)
+        by_address = sweep(base, SPACE, ["resistance_dc"], cluster=lc.scheduler_address, progress=False)
     assert lines(procs) == lines(serial)
     assert lines(dask) == lines(serial)
+    assert [r["resistance_dc_ohm"] for r in by_address] == [r["resistance_dc_ohm"] for r in serial]
     assert sum(r["error"] is not None for r in dask) == 1
 
 
