@@ -30,6 +30,7 @@ from numpy.testing import assert_allclose
 from scipy.integrate import quad
 
 import tracecoil
+from tracecoil.generators.tracks import circle_sampling
 from tracecoil.export.summary import fill_ratio, summary, winding_sizes, winding_turns
 from tracecoil.outline import outlines
 
@@ -56,9 +57,11 @@ def test_circular_spiral_length_vs_archimedes(tol):
     w, s, outer, turns = 0.25, 0.25, 40.0, 12
     coil = tracecoil.spiral(shape="circle", outer_mm=outer, turns=turns, width_mm=w, gap_mm=s, tolerance_mm=tol)
     summ = summary(coil)
-    pitch = w + s
     n = turns + coil.extra_turns[0]  # the generator may add a fraction of a turn for via room
     r0 = outer / 2 - w / 2
+    # the radial pitch of a sampled circle is the design pitch stretched a
+    # little so chords keep the full gap (tracks.circle_sampling)
+    pitch = circle_sampling(r0, w + s, tol, turns + 0.25)[1]
     r1 = r0 - pitch * n
     exact = archimedes_length(r0, r1, pitch)
     got = summ["layers"][0]["winding_length_mm"]
@@ -77,7 +80,8 @@ def test_circular_spiral_length_converges():
     for tol in (0.02, 0.005):
         coil = tracecoil.spiral(shape="circle", outer_mm=30, turns=10, width_mm=w, gap_mm=s, tolerance_mm=tol)
         n = 10 + coil.extra_turns[0]
-        exact = archimedes_length(15 - w / 2, 15 - w / 2 - (w + s) * n, w + s)
+        pitch = circle_sampling(15 - w / 2, w + s, tol, 10 + 0.25)[1]
+        exact = archimedes_length(15 - w / 2, 15 - w / 2 - pitch * n, pitch)
         errs.append(exact - summary(coil)["layers"][0]["winding_length_mm"])
     # error ~ tolerance: a quarter of the tolerance gives about a quarter of the error
     assert_allclose(errs[0] / errs[1], 4.0, rtol=0.1)

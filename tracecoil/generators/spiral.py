@@ -26,7 +26,7 @@ import numpy as np
 from ..design import BoardSpec, CoilSpec, make_board_spec, make_coil_spec
 from ..errors import GeometryError, SpecError
 from ..layout import Coil, Step, Terminal, Trace, Via
-from .tracks import inward_spiral, outline_for, treat_corners
+from .tracks import circle_sampling, inward_spiral, outline_for, treat_corners
 
 _E_STEP = 1.0 / 720.0  # search step for extra turns (half a degree)
 
@@ -42,7 +42,7 @@ def spiral(*, board=None, name: str = "coil", **coil) -> Coil:
     >>> [t.role for t in c.traces]
     ['lead', 'winding', 'lead', 'return']
     >>> round(c.traces[1].length_mm, 2)
-    335.21
+    335.02
     """
     spec = make_coil_spec(coil)
     if board is None:
@@ -73,7 +73,7 @@ def max_turns(spec: CoilSpec, board: BoardSpec | None = None) -> float:
 
     >>> from tracecoil.design import CoilSpec
     >>> max_turns(CoilSpec(shape="circle", outer_mm=10, turns=1, width_mm=0.2, gap_mm=0.2))
-    9.75
+    9.625
     """
     board = board or make_board_spec({"layers": max(2, spec.layers + 1)})
     coil = {f: getattr(spec, f) for f in spec.__dataclass_fields__}
@@ -101,27 +101,46 @@ def max_turns(spec: CoilSpec, board: BoardSpec | None = None) -> float:
     return best
 
 
-def _angdist(a: float, b: float) -> float:
-    d = (a - b) % (2 * np.pi)
-    return min(d, 2 * np.pi - d)
+def _seg_dist(p: np.ndarray, a: np.ndarray, b: np.ndarray) -> float:
+    """Distance from point ``p`` to the segment ``a``-``b``."""
+    ab = b - a
+    den = float(ab @ ab)
+    t = 0.0 if den == 0 else min(max(float((p - a) @ ab) / den, 0.0), 1.0)
+    return float(np.hypot(*(p - (a + t * ab))))
 
 
 class _Assembler:
+    """Lays out windings, leads and plated holes for one CoilSpec.
+
+    Every plated hole goes through the whole board, so each must keep
+    ``gap_mm`` from all copper it does not connect, on every layer. Holes
+    stand outside the outer edge (within ``gap + pad/2`` of it along the
+    outward normal of the side the winding ends on) or in the hollow centre
+    (at the point of the hollow region nearest the winding end, so the lead
+    is perpendicular to the last side wherever it can be). The hollow region
+    is the track shrunk by the deepest winding any layer can reach plus the
+    clearance, so a hole there clears every layer's winding.
+    """
+
     def __init__(self, spec: CoilSpec, board: BoardSpec, name: str):
         self.spec, self.board, self.name = spec, board, name
         s = spec
         self.sense = 1 if s.direction == "ccw" else -1
-        self.pitch = s.pitch_mm
         self.edge = outline_for(s.shape, s.outer_mm, outer_height_mm=s.outer_height_mm, sides=s.sides)
         self.track = self.edge.shrink(s.width_mm / 2)
+        if s.shape == "circle":
+            self.deep = s.turns + 0.25
+            _, self.pitch = circle_sampling(self.track.distances[0], s.pitch_mm, s.tolerance_mm, self.deep)
+        else:
+            self.pitch = s.pitch_mm
+            self.deep = s.turns + 0.25 + 1.0 / s.n_sides
         self.stackup = board.stackup()
         self.layers = self._layers()
         self.traces: list[Trace] = []
         self.vias: list[Via] = []
         self.path: list[Step] = []
-        self.outer_items: list[float] = []  # angles taken in the outer ring
-        self.inner_items: list[float] = []  # angles taken in the hollow
         self.extra_turns: list[float] = []
+        self.leads: list[tuple] = []  # (a, b, positions of the holes it attaches to)
 
     # ------------------------------------------------------------------ setup
     def _layers(self) -> tuple[int, ...]:
@@ -131,12 +150,12 @@ class _Assembler:
             raise SpecError(f"layers = {s.layers} (on_layers {list(layers)}) needs copper layers beyond board.layers = {n}; allowed: layers <= {n}")
         return layers
 
-    def _needs_return(self) -> bool:
+    def _ends_inside(self) -> bool:
         s = self.spec
-        ends_inside = s.wiring == "parallel" and s.layers > 1 or s.wiring == "series" and s.layers % 2 == 1
-        if s.layers == 1:
-            ends_inside = True
-        return ends_inside and s.return_lead == "layer"
+        return s.layers == 1 or s.wiring == "parallel" or s.layers % 2 == 1
+
+    def _needs_return(self) -> bool:
+        return self._ends_inside() and self.spec.return_lead == "layer"
 
     def _return_layer(self) -> int:
         s, n = self.spec, self.board.layers
@@ -152,91 +171,93 @@ class _Assembler:
             )
         return free[0]
 
-    # ------------------------------------------------------------- hole room
-    def _ring_radius(self, angle: float, pad: float) -> float:
-        return self.edge.clear_radius(angle, self.spec.gap_mm + pad / 2)
-
-    def _spacing(self, radius: float, pad: float) -> float:
-        """Smallest angle between two holes of diameter ``pad`` at ``radius``
-        so that pads keep the gap from each other and from radial leads."""
-        s = self.spec
-        need_lead = (pad / 2 + s.width_mm / 2 + s.gap_mm) / radius
-        need_pad = (pad + s.gap_mm) / (2 * radius)
-        if need_lead >= 1 or need_pad >= 1:
-            return np.inf
-        return max(math.asin(need_lead), 2 * math.asin(need_pad))
-
-    def _free(self, angle: float, outer: bool, inner: bool) -> bool:
-        if outer and any(_angdist(angle, a) < self.d_out for a in self.outer_items):
-            return False
-        if inner and any(_angdist(angle, a) < self.d_in for a in self.inner_items):
-            return False
-        return True
-
-    def _extra(self, end_angle_at, outer: bool, inner: bool) -> float:
-        """Smallest extra turn fraction e >= 0 such that the winding's end
-        angle ``end_angle_at(e)`` is free in the requested hole regions."""
-        e = 0.0
-        while e < 1.0:
-            if self._free(end_angle_at(e), outer, inner):
-                return e
-            e += _E_STEP
-        raise GeometryError("no free position for a via or pad around the coil; use fewer layers, smaller via_pad_mm / pad_mm, or a larger coil")
-
-    # --------------------------------------------------------------- building
-    def build(self) -> Coil:
-        s = self.spec
-        self._check_fit()
-        if s.wiring == "parallel" and s.layers > 1:
-            self._build_parallel()
-        else:
-            self._build_series()
-        terms = (Terminal("A", *self.term_xy[0], via=self.term_via[0]), Terminal("B", *self.term_xy[1], via=self.term_via[1]))
-        return Coil(
-            stackup=self.stackup,
-            traces=tuple(self.traces),
-            vias=tuple(self.vias),
-            terminals=terms,
-            path=tuple(self.path),
-            spec=s,
-            name=self.name,
-            extra_turns=tuple(self.extra_turns),
-            board_outline_mm=self._board_outline(),
-        )
-
-    def _board_outline(self):
-        if self.board.outline_mm is None:
-            return None
-        w, h = self.board.outline_mm
-        return np.array([[-w / 2, -h / 2], [w / 2, -h / 2], [w / 2, h / 2], [-w / 2, h / 2]])
-
     def _check_fit(self):
         s = self.spec
-        inner_pad = s.pad_mm if not self._needs_return() and (s.layers % 2 == 1 or s.wiring == "parallel") and s.return_lead == "none" else s.via_pad_mm
-        self.hollow_pad = inner_pad
-        inner_edge = self.track.min_distance - self.pitch * (s.turns + 0.25) - s.width_mm / 2
-        need = s.gap_mm + inner_pad
-        if inner_edge < need:
-            room = self.track.min_distance - s.width_mm / 2 - need
-            fit = math.floor(max(room / self.pitch - 0.25, 0) * 4) / 4
+        self.hollow_pad = s.pad_mm if self._ends_inside() and s.return_lead == "none" else s.via_pad_mm
+        clear = s.width_mm / 2 + s.gap_mm + self.hollow_pad / 2
+        self.hollow = self.track.shrink(self.pitch * self.deep + clear)
+        if self.hollow.min_distance < self.hollow_pad / 2:
+            room = self.track.min_distance - s.width_mm / 2 - s.gap_mm - self.hollow_pad
+            fit = math.floor(max(room / self.pitch - (self.deep - s.turns), 0) * 4) / 4
             raise GeometryError(
                 f"turns = {s.turns} do not fit inside outer_mm = {s.outer_mm} with width_mm = {s.width_mm} and gap_mm = {s.gap_mm}: "
-                f"the centre must keep room for a {inner_pad} mm pad; at most about {fit} turns fit"
+                f"the centre must keep room for a {self.hollow_pad} mm pad; at most about {fit} turns fit"
             )
-        r_ring = self.edge.min_distance + s.gap_mm + s.pad_mm / 2
-        self.d_out = self._spacing(r_ring, max(s.pad_mm, s.via_pad_mm))
-        r_hollow = inner_edge - s.gap_mm - inner_pad / 2
-        self.r_hollow_est = r_hollow
-        self.d_in = self._spacing(r_hollow, inner_pad) if r_hollow > 0 else np.inf
 
-    def _winding(self, layer: int, start: float, turns: float, sense: int, outward: bool) -> np.ndarray:
+    # -------------------------------------------------------------- geometry
+    def _winding(self, start: float, turns: float, sense: int, outward: bool) -> np.ndarray:
         s = self.spec
-        pts = inward_spiral(self.track, start=start, turns=turns, sense=sense, pitch_mm=self.pitch, tolerance_mm=s.tolerance_mm)
+        pts = inward_spiral(self.track, start=start, turns=turns, sense=sense, pitch_mm=s.pitch_mm, tolerance_mm=s.tolerance_mm, deepest_turns=self.deep)
         pts = treat_corners(pts, s.corner, s.corner_mm, s.tolerance_mm)
-        if outward:
-            pts = pts[::-1].copy()
-        return pts
+        return pts[::-1].copy() if outward else pts
 
+    def _frame(self, pts: np.ndarray, at_end: bool):
+        """End point of a winding and the outward normal of its last piece."""
+        p, q = (pts[-1], pts[-2]) if at_end else (pts[0], pts[1])
+        if self.edge.normals is None:
+            n = p / np.hypot(*p)
+        else:
+            d = p - q
+            n = np.array([d[1], -d[0]]) / np.hypot(*d)
+            if n @ p < 0:
+                n = -n
+        return p, n
+
+    def _outer_hole(self, p, n, pad):
+        return p + n * (self.spec.width_mm / 2 + self.spec.gap_mm + pad / 2)
+
+    def _inner_hole(self, p):
+        """Nearest point of the hollow region to ``p``."""
+        h = self.hollow
+        if h.normals is None:
+            return p * (h.distances[0] / np.hypot(*p))
+        from shapely.geometry import Point, Polygon
+        from shapely.ops import nearest_points
+
+        poly = Polygon(h.vertices())
+        q = nearest_points(poly, Point(p))[0]
+        q = np.array([q.x, q.y])
+        # stay on the safe side of the hollow boundary despite rounding
+        return q * (1 - 1e-12)
+
+    def _ring_point(self, angle: float, pad: float):
+        r = self.edge.clear_radius(angle, self.spec.gap_mm + pad / 2)
+        return np.array([r * math.cos(angle), r * math.sin(angle)])
+
+    # ------------------------------------------------------------- conflicts
+    def _conflicts(self, holes, leads) -> bool:
+        """True when candidate ``holes`` [(xy, pad)] or ``leads`` [(a, b,
+        attached hole positions)] come too close to what is placed."""
+        s = self.spec
+        w2g = s.width_mm / 2 + s.gap_mm
+        placed = [(v.xy, v.pad_mm) for v in self.vias]
+        for xy, pad in holes:
+            for pxy, ppad in placed:
+                if np.hypot(*(xy - pxy)) < (pad + ppad) / 2 + s.gap_mm - 1e-9:
+                    return True
+            for a, b, att in self.leads:
+                if _seg_dist(xy, a, b) < pad / 2 + w2g - 1e-9:
+                    return True
+        for a, b, att in leads:
+            for pxy, ppad in placed + list(holes):
+                if att is not None and min(np.hypot(*(pxy - np.asarray(t))) for t in att) < 1e-9:
+                    continue
+                if _seg_dist(pxy, a, b) < ppad / 2 + w2g - 1e-9:
+                    return True
+        return False
+
+    def _search(self, make):
+        """Smallest extra turn fraction e >= 0 whose candidate ``make(e)`` ->
+        (holes, leads, payload) is free of conflicts; returns (e, payload)."""
+        e = 0.0
+        while e <= 0.25 + 1e-12:
+            holes, leads, payload = make(e)
+            if not self._conflicts(holes, leads):
+                return e, payload
+            e += _E_STEP
+        raise GeometryError("no free place for a via or pad around the coil within a quarter turn; use fewer layers, smaller via_pad_mm / pad_mm, or a larger coil")
+
+    # --------------------------------------------------------------- building
     def _add_trace(self, layer, pts, role, fraction=1.0):
         self.traces.append(Trace(layer=layer, points_mm=np.asarray(pts), width_mm=self.spec.width_mm, role=role))
         self.path.append(Step("trace", len(self.traces) - 1, fraction))
@@ -246,6 +267,10 @@ class _Assembler:
         drill, pad = (s.pad_drill_mm, s.pad_mm) if role == "terminal" else (s.via_drill_mm, s.via_pad_mm)
         self.vias.append(Via(float(xy[0]), float(xy[1]), drill, pad, tuple(sorted(layers)), role))
         return len(self.vias) - 1
+
+    def _add_lead(self, layer, a, b, hole, role="lead", fraction=1.0):
+        self._add_trace(layer, [a, b], role, fraction)
+        self.leads.append((np.asarray(a, float), np.asarray(b, float), [self.vias[hole].xy]))
 
     def _via_steps(self, via: int, inject: dict[int, float]):
         """Path steps for current through a plated hole. ``inject`` maps
@@ -261,101 +286,103 @@ class _Assembler:
                 else:
                     self.path.append(Step("via", via, -flow, b, a))
 
-    def _ring_xy(self, angle, pad):
-        r = self._ring_radius(angle, pad)
-        return np.array([r * math.cos(angle), r * math.sin(angle)])
+    def build(self) -> Coil:
+        self._check_fit()
+        if self.spec.wiring == "parallel" and self.spec.layers > 1:
+            self._build_parallel()
+        else:
+            self._build_series()
+        a, b = self.term_via
+        terms = (Terminal("A", self.vias[a].x_mm, self.vias[a].y_mm, via=a), Terminal("B", self.vias[b].x_mm, self.vias[b].y_mm, via=b))
+        return Coil(
+            stackup=self.stackup,
+            traces=tuple(self.traces),
+            vias=tuple(self.vias),
+            terminals=terms,
+            path=tuple(self.path),
+            spec=self.spec,
+            name=self.name,
+            extra_turns=tuple(self.extra_turns),
+            board_outline_mm=self._board_outline(),
+        )
 
-    def _hollow_xy(self, angle):
-        return np.array([self.r_hollow * math.cos(angle), self.r_hollow * math.sin(angle)])
+    def _board_outline(self):
+        if self.board.outline_mm is None:
+            return None
+        w, h = self.board.outline_mm
+        return np.array([[-w / 2, -h / 2], [w / 2, -h / 2], [w / 2, h / 2], [-w / 2, h / 2]])
 
-    def _compute_r_hollow(self, deepest_turns: float):
+    def _terminal_a(self, start: float, first_pts):
         s = self.spec
-        inner_edge = self.track.min_distance - self.pitch * deepest_turns - s.width_mm / 2
-        self.r_hollow = inner_edge - s.gap_mm - self.hollow_pad / 2
+        p, n = self._frame(first_pts, at_end=False)
+        pad_a = self._add_hole(self._outer_hole(p, n, s.pad_mm), range(1, self.board.layers + 1), "terminal")
+        return pad_a, p
 
     def _build_series(self):
         s, sense, T = self.spec, self.sense, self.spec.turns
         all_layers = list(self.layers)
+        n_layers = len(all_layers)
         needs_return = self._needs_return()
         ret_layer = self._return_layer() if needs_return else None
-        n_layers = len(all_layers)
+        every = range(1, self.board.layers + 1)
         a0 = math.radians(s.start_angle_deg)
-        # First plan the angles (extra turns) of every winding end.
-        self.outer_items.append(a0)  # terminal A
-        plan = []  # (layer, start_angle, turns, outward)
-        angle = a0
+        first = self._winding(a0, T, sense, outward=False)
+        pad_a, p_start = self._terminal_a(a0, first)
+        self.term_via = [pad_a, None]
+        prev_hole, prev_layer, angle = pad_a, 1, a0
         for i, layer in enumerate(all_layers):
             outward = i % 2 == 1
             last = i == n_layers - 1
-            if outward:
-                # ends in the outer ring (via to the next layer, or terminal B)
-                e = self._extra(lambda e: angle + sense * 2 * np.pi * (T + e), outer=True, inner=False)
-                end = angle + sense * 2 * np.pi * (T + e)
-                self.outer_items.append(end)
-            else:
-                # ends in the hollow; a return lead also needs the ring angle
-                ret = last and needs_return
-                e = self._extra(lambda e: angle + sense * 2 * np.pi * (T + e), outer=ret, inner=True)
-                end = angle + sense * 2 * np.pi * (T + e)
-                self.inner_items.append(end)
-                if ret:
-                    self.outer_items.append(end)
-            plan.append((layer, angle, T + e, outward))
-            self.extra_turns.append(e)
-            angle = end
-        deepest = max(t for _, _, t, _ in plan) if plan else T
-        if deepest - T > 0.25 + 1e-9:
-            raise GeometryError("vias need more than a quarter extra turn to find room; use fewer layers or smaller pads")
-        self._compute_r_hollow(T + 0.25)
-        # Terminal A and its lead.
-        pad_a = self._add_hole(self._ring_xy(a0, s.pad_mm), range(1, self.board.layers + 1), "terminal")
-        self.term_via = [pad_a, None]
-        self.term_xy = [self.vias[pad_a].xy, None]
-        prev_hole = pad_a
-        prev_layer = all_layers[0]
-        for i, (layer, start, turns, outward) in enumerate(plan):
-            if outward:
-                end_angle = start + sense * 2 * np.pi * turns
-                pts = self._winding(layer, end_angle, turns, -sense, outward=True)
-            else:
-                pts = self._winding(layer, start, turns, sense, outward=False)
-            # current goes from the previous hole, through the barrel to this layer
-            entry = 1 if i == 0 else prev_layer  # external current enters terminal A on the top layer
-            if entry != layer:
-                self._via_steps(prev_hole, {entry: 1.0, layer: -1.0})
-            self._add_trace(layer, [self.vias[prev_hole].xy, pts[0]], "lead")
-            self._add_trace(layer, pts, "winding")
-            end_angle = start + sense * 2 * np.pi * turns
-            last = i == len(plan) - 1
-            if outward:
-                if last:
-                    hole = self._add_hole(self._ring_xy(end_angle, s.pad_mm), range(1, self.board.layers + 1), "terminal")
-                    self.term_via[1] = hole
-                    self.term_xy[1] = self.vias[hole].xy
-                else:
-                    hole = self._add_hole(self._ring_xy(end_angle, s.via_pad_mm), (layer, plan[i + 1][0]), "via")
-                self._add_trace(layer, [pts[-1], self.vias[hole].xy], "lead")
-            else:
-                if last and not needs_return:
-                    hole = self._add_hole(self._hollow_xy(end_angle), range(1, self.board.layers + 1), "terminal")
-                    self.term_via[1] = hole
-                    self.term_xy[1] = self.vias[hole].xy
-                    self._add_trace(layer, [pts[-1], self.vias[hole].xy], "lead")
-                else:
-                    nxt = ret_layer if last else plan[i + 1][0]
-                    hole = self._add_hole(self._hollow_xy(end_angle), (layer, nxt), "via")
-                    self._add_trace(layer, [pts[-1], self.vias[hole].xy], "lead")
-                    if last:
-                        self._return(hole, layer, ret_layer, end_angle)
-            prev_hole, prev_layer = hole, layer
+            hole_xy = self.vias[prev_hole].xy
 
-    def _return(self, hollow_via: int, from_layer: int, ret_layer: int, angle: float, fraction: float = 1.0, inject=None):
-        s = self.spec
-        self._via_steps(hollow_via, inject or {from_layer: fraction, ret_layer: -fraction})
-        pad_b = self._add_hole(self._ring_xy(angle, s.pad_mm), range(1, self.board.layers + 1), "terminal")
-        self._add_trace(ret_layer, [self.vias[hollow_via].xy, self.vias[pad_b].xy], "return")
-        self.term_via[1] = pad_b
-        self.term_xy[1] = self.vias[pad_b].xy
+            def make(e, layer=layer, outward=outward, last=last, angle=angle, hole_xy=hole_xy):
+                end_angle = angle + sense * 2 * np.pi * (T + e)
+                if outward:
+                    pts = self._winding(end_angle, T + e, -sense, outward=True)
+                else:
+                    pts = self._winding(angle, T + e, sense, outward=False)
+                p, n = self._frame(pts, at_end=True)
+                start_lead = (hole_xy, pts[0], [hole_xy])
+                if outward:
+                    pad = s.pad_mm if last else s.via_pad_mm
+                    xy = self._outer_hole(p, n, pad)
+                    return [(xy, pad)], [start_lead, (p, xy, [xy])], (pts, xy, None, end_angle)
+                if last and not needs_return:
+                    xy = self._inner_hole(p)
+                    return [(xy, s.pad_mm)], [start_lead, (p, xy, [xy])], (pts, xy, None, end_angle)
+                xy = self._inner_hole(p)
+                holes, leads = [(xy, s.via_pad_mm)], [start_lead, (p, xy, [xy])]
+                ret = None
+                if last:  # return lead radially out under the windings to terminal B
+                    ret = self._ring_point(math.atan2(xy[1], xy[0]), s.pad_mm)
+                    holes.append((ret, s.pad_mm))
+                    leads.append((xy, ret, [xy, ret]))
+                return holes, leads, (pts, xy, ret, end_angle)
+
+            e, (pts, xy, ret, end_angle) = self._search(make)
+            self.extra_turns.append(e)
+            if prev_layer != layer:
+                self._via_steps(prev_hole, {prev_layer: 1.0, layer: -1.0})
+            self._add_lead(layer, self.vias[prev_hole].xy, pts[0], prev_hole)
+            self._add_trace(layer, pts, "winding")
+            if outward:
+                role = "terminal" if last else "via"
+                hole = self._add_hole(xy, every if last else (layer, all_layers[i + 1]), role)
+            elif last and not needs_return:
+                hole = self._add_hole(xy, every, "terminal")
+            else:
+                nxt = ret_layer if last else all_layers[i + 1]
+                hole = self._add_hole(xy, (layer, nxt), "via")
+            self._add_lead(layer, pts[-1], xy, hole)
+            if last:
+                if ret is not None:
+                    self._via_steps(hole, {layer: 1.0, ret_layer: -1.0})
+                    pad_b = self._add_hole(ret, every, "terminal")
+                    self._add_lead(ret_layer, xy, ret, pad_b, role="return")
+                    self.term_via[1] = pad_b
+                else:
+                    self.term_via[1] = hole
+            prev_hole, prev_layer, angle = hole, layer, end_angle
 
     def _build_parallel(self):
         s, sense, T = self.spec, self.sense, self.spec.turns
@@ -363,31 +390,42 @@ class _Assembler:
         frac = 1.0 / n
         needs_return = self._needs_return()
         ret_layer = self._return_layer() if needs_return else None
+        every = range(1, self.board.layers + 1)
         a0 = math.radians(s.start_angle_deg)
-        self.outer_items.append(a0)
-        e = self._extra(lambda e: a0 + sense * 2 * np.pi * (T + e), outer=needs_return, inner=True)
+        pad_a, p_start = self._terminal_a(a0, self._winding(a0, T, sense, outward=False))
+        pad_xy = self.vias[pad_a].xy
+
+        def make(e):
+            pts = self._winding(a0, T + e, sense, outward=False)
+            p, _ = self._frame(pts, at_end=True)
+            xy = self._inner_hole(p)
+            pad = s.via_pad_mm if needs_return else s.pad_mm
+            holes, leads = [(xy, pad)], [(pad_xy, pts[0], [pad_xy]), (p, xy, [xy])]
+            ret = None
+            if needs_return:
+                ret = self._ring_point(math.atan2(xy[1], xy[0]), s.pad_mm)
+                holes.append((ret, s.pad_mm))
+                leads.append((xy, ret, [xy, ret]))
+            return holes, leads, (pts, xy, ret)
+
+        e, (pts, xy, ret) = self._search(make)
         self.extra_turns.extend([e] * n)
-        end_angle = a0 + sense * 2 * np.pi * (T + e)
-        self._compute_r_hollow(T + 0.25)
-        pad_a = self._add_hole(self._ring_xy(a0, s.pad_mm), range(1, self.board.layers + 1), "terminal")
-        hollow_layers = list(self.layers) + ([ret_layer] if needs_return else [])
-        role = "via" if needs_return else "terminal"
-        hollow = self._add_hole(self._hollow_xy(end_angle), hollow_layers if needs_return else range(1, self.board.layers + 1), role)
-        self.term_via = [pad_a, hollow]
-        self.term_xy = [self.vias[pad_a].xy, self.vias[hollow].xy]
+        hollow_layers = list(self.layers) + [ret_layer] if needs_return else every
+        hollow = self._add_hole(xy, hollow_layers, "via" if needs_return else "terminal")
         entry = self.layers[0]
-        self._via_steps(pad_a, {entry: 1.0, **{l: (-frac if l != entry else 1.0 - frac) for l in self.layers}})
+        self._via_steps(pad_a, {**{l: -frac for l in self.layers}, entry: 1.0 - frac} if entry == 1 else {1: 1.0, **{l: -frac for l in self.layers}})
         for layer in self.layers:
-            pts = self._winding(layer, a0, T + e, sense, outward=False)
-            self._add_trace(layer, [self.vias[pad_a].xy, pts[0]], "lead", frac)
+            self._add_lead(layer, pad_xy, pts[0], pad_a, fraction=frac)
             self._add_trace(layer, pts, "winding", frac)
-            self._add_trace(layer, [pts[-1], self.vias[hollow].xy], "lead", frac)
+            self._add_lead(layer, pts[-1], xy, hollow, fraction=frac)
+        inject = {l: frac for l in self.layers}
         if needs_return:
-            inject = {l: frac for l in self.layers}
             inject[ret_layer] = inject.get(ret_layer, 0.0) - 1.0
-            self._return(hollow, None, ret_layer, end_angle, inject=inject)
-        else:
-            exit_layer = self.layers[0]
-            inject = {l: frac for l in self.layers}
-            inject[exit_layer] -= 1.0
             self._via_steps(hollow, inject)
+            pad_b = self._add_hole(ret, every, "terminal")
+            self._add_lead(ret_layer, xy, ret, pad_b, role="return")
+            self.term_via = [pad_a, pad_b]
+        else:
+            inject[self.layers[0]] -= 1.0
+            self._via_steps(hollow, inject)
+            self.term_via = [pad_a, hollow]

@@ -108,7 +108,50 @@ def circle_steps(radius_mm: float, tolerance_mm: float) -> float:
     return float(min(2 * math.acos(1 - tolerance_mm / radius_mm), np.pi / 2))
 
 
-def inward_spiral(outline: Outline, *, start: float, turns: float, sense: int, pitch_mm: float, tolerance_mm: float) -> np.ndarray:
+def circle_sampling(radius_mm: float, pitch_mm: float, tolerance_mm: float, turns: float) -> tuple[float, float]:
+    """Angular step and radial pitch of a sampled Archimedean spiral.
+
+    The step divides a full turn exactly, so vertices of neighbouring turns
+    lie on the same rays. Neighbouring turns of an Archimedean spiral of
+    radial pitch P are only about P cos(psi) apart along the normal (tan psi
+    = P / (2 pi r), the pitch angle), and a vertex of one turn faces the
+    corner between two chords of the next, tilted by half a step and by the
+    pitch angle. The radial pitch is therefore stretched until the smallest
+    distance from any vertex to the neighbouring turn's chords equals the
+    design pitch, over ``turns`` turns from ``radius_mm``: the copper gap
+    never drops below the design gap (it is a little larger on outer turns).
+
+    >>> step, pr = circle_sampling(10.0, 0.4, 0.01, 5)
+    >>> round(2 * np.pi / step), round(float(pr), 5)
+    (71, 0.40054)
+    """
+    per_turn = max(int(math.ceil(2 * np.pi / circle_steps(radius_mm, tolerance_mm) - 1e-9)), 4)
+    step = 2 * np.pi / per_turn
+    pr = pitch_mm / math.cos(step / 2)
+    n = int(math.ceil(turns * per_turn)) + 1
+    t = step * np.arange(n)
+    for _ in range(8):
+        r = radius_mm - pr * t / (2 * np.pi)
+        if r[-1] <= 0:
+            break
+        pts = np.stack([r * np.cos(t), r * np.sin(t)], axis=1)
+        inner = pts[per_turn + 1 : -1]
+        a, b, c = pts[: n - per_turn - 2], pts[1 : n - per_turn - 1], pts[2 : n - per_turn]
+        d = np.minimum(_point_segment(inner, a, b), _point_segment(inner, b, c)).min() if len(inner) else pitch_mm
+        if d >= pitch_mm * (1 - 1e-13):
+            break
+        pr *= pitch_mm / d * (1 + 1e-13)
+    return step, pr
+
+
+def _point_segment(p, a, b):
+    """Row-wise distance from points ``p`` to segments ``a``-``b`` (n, 2)."""
+    ab = b - a
+    t = np.clip(np.einsum("ij,ij->i", p - a, ab) / np.einsum("ij,ij->i", ab, ab), 0.0, 1.0)
+    return np.hypot(*(p - (a + t[:, None] * ab)).T)
+
+
+def inward_spiral(outline: Outline, *, start: float, turns: float, sense: int, pitch_mm: float, tolerance_mm: float, deepest_turns: float | None = None) -> np.ndarray:
     """Centreline of an inward spiral whose first side lies on ``outline``.
 
     Parameters
@@ -122,6 +165,10 @@ def inward_spiral(outline: Outline, *, start: float, turns: float, sense: int, p
     sense : {+1, -1}
         Angular sense of travel.
     pitch_mm, tolerance_mm : float
+    deepest_turns : float or None
+        Circles: the most turns any spiral sharing this radial pitch will
+        wind (sets the pitch stretch, see :func:`circle_sampling`); default
+        ``turns``.
 
     Returns
     -------
@@ -132,19 +179,29 @@ def inward_spiral(outline: Outline, *, start: float, turns: float, sense: int, p
     total = 2 * np.pi * turns
     if outline.normals is None:
         r0 = outline.distances[0]
-        r_end = r0 - pitch_mm * turns
+        step, pitch_r = circle_sampling(r0, pitch_mm, tolerance_mm, deepest_turns or turns)
+        r_end = r0 - pitch_r * turns
         if r_end <= 0:
-            raise GeometryError(f"spiral reaches the centre: {turns} turns at pitch {pitch_mm} mm need a radius over {pitch_mm * turns:.3f} mm; the track starts at {r0:.3f} mm")
-        step = circle_steps(r0, tolerance_mm)
-        n = max(int(math.ceil(total / step)), 2)
-        t = np.linspace(0.0, total, n + 1)
-        r = r0 - pitch_mm * t / (2 * np.pi)
+            raise GeometryError(f"spiral reaches the centre: {turns} turns at pitch {pitch_mm} mm need a radius over {pitch_r * turns:.3f} mm; the track starts at {r0:.3f} mm")
+        k_end = int(math.ceil(total / step - 1e-9))
+        t = step * np.arange(k_end + 1)
+        r = r0 - pitch_r * t / (2 * np.pi)
         phi = start + sense * t
-        return np.stack([r * np.cos(phi), r * np.sin(phi)], axis=1)
+        pts = np.stack([r * np.cos(phi), r * np.sin(phi)], axis=1)
+        if t[-1] - total > 1e-9 * step:
+            # end where the last whole chord crosses the end ray, so the end
+            # stays on the chord that the neighbouring turn runs parallel to
+            a, b = pts[-2], pts[-1]
+            u = np.array([math.cos(start + sense * total), math.sin(start + sense * total)])
+            d = b - a
+            lam = (u[0] * a[1] - u[1] * a[0]) / (u[1] * d[0] - u[0] * d[1])
+            pts[-1] = a + lam * d
+        return pts
 
     normals, base = outline.normals, outline.distances
     n_sides = len(base)
-    u0 = np.array([math.cos(start), math.sin(start)])
+    ahead = start + sense * 1e-7  # at a corner, take the side that lies ahead
+    u0 = np.array([math.cos(ahead), math.sin(ahead)])
     cos0 = normals @ u0
     with np.errstate(divide="ignore"):
         hit = np.where(cos0 > 1e-12, base / np.where(cos0 > 1e-12, cos0, 1.0), np.inf)
