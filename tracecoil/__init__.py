@@ -13,3 +13,5 @@ from .layout import Coil, Stackup, Step, Terminal, Trace, Via
 from .predict import Prediction, frequency_sweep, predict
 from .rules import CheckResult, Finding, RuleSet, check, load_rules
 from .targets import BlockMagnet, Circular, CylinderMagnet, Dipole, Linear, Table, signal
+from .targets.conductive import Plate, plate_signal
+from .targets.coupling import receiver_signal
