@@ -177,7 +177,7 @@ def summary(coil: Coil, *, outlines=None) -> dict:
     >>> from tracecoil import spiral
     >>> s = summary(spiral(shape="square", outer_mm=20, turns=5, width_mm=0.3, gap_mm=0.3))
     >>> round(s["layers"][0]["turns"], 4), s["layers"][0]["outer_mm"], round(s["inner_mm"], 6), s["via_count"]
-    (5.0278, 20.0, 14.6, 1)
+    (5.0236, 20.0, 14.6, 1)
     """
     if outlines is None:
         tol = getattr(coil.spec, "tolerance_mm", DEFAULT_TOLERANCE_MM)

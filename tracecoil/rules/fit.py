@@ -4,7 +4,7 @@ and a validator that rejects a design whose own numbers break its rules.
 >>> from tracecoil.rules.fit import max_turns_for
 >>> fit = max_turns_for(outer_mm=10, shape="square", layers=2, rules="standard")
 >>> fit.width_mm, fit.gap_mm, fit.turns, fit.clean
-(0.15, 0.15, 13.375, True)
+(0.15, 0.15, 13.125, True)
 """
 
 from __future__ import annotations
