@@ -137,11 +137,11 @@ def test_command_line_writes_files(tmp_path, capsys):
         assert key in doc
     assert doc["frequency_hz"] == 2e6 and doc["tank"]["capacitance_f"] == 1e-9
     files = sorted(p.name for p in out.iterdir())
-    assert files == ["tiny_pad_equivalent.cir", "tiny_pad_field.png", "tiny_pad_predict.json", "tiny_pad_sweep.png"]
-    saved = json.loads((out / "tiny_pad_predict.json").read_text())
+    assert files == ["tiny-pad-equivalent.cir", "tiny-pad-field.png", "tiny-pad-predict.json", "tiny-pad-sweep.png"]
+    saved = json.loads((out / "tiny-pad-predict.json").read_text())
     assert saved["inductance_h"] == doc["inductance_h"]
     assert len(saved["sweep"]["filament_model"]["frequency_hz"]) >= 3 and len(saved["sweep"]["frequency_hz"]) >= 20
-    for png in ("tiny_pad_field.png", "tiny_pad_sweep.png"):
+    for png in ("tiny-pad-field.png", "tiny-pad-sweep.png"):
         assert (out / png).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert ".subckt tiny_pad a b" in (out / "tiny_pad_equivalent.cir").read_text()
 

@@ -594,10 +594,10 @@ def frequency_sweep(coil, freqs_hz, *, temperature_c=20.0, capacitance_f=None, f
 def write_outputs(prediction: Prediction, coil, out_dir, *, sweep: Sweep | None = None, field_map: bool = True) -> dict:
     """Write the prediction's files into ``out_dir``, all or none.
 
-    Files: ``<name>_predict.json`` (the prediction, with the sweep if
-    given), ``<name>_equivalent.cir`` (SPICE subcircuit),
-    ``<name>_sweep.png`` (L, R, Q against frequency, when ``sweep`` is
-    given) and ``<name>_field.png`` (|B| in the plane y = centre, when
+    Files: ``<name>-predict.json`` (the prediction, with the sweep if
+    given), ``<name>-equivalent.cir`` (SPICE subcircuit),
+    ``<name>-sweep.png`` (L, R, Q against frequency, when ``sweep`` is
+    given) and ``<name>-field.png`` (|B| in the plane y = centre, when
     ``field_map``).
 
     Returns
@@ -611,22 +611,22 @@ def write_outputs(prediction: Prediction, coil, out_dir, *, sweep: Sweep | None 
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    stem = _cc.spice_name(prediction.name)
+    stem = prediction.name  # design names are letters, digits, '-' and '_' (design.py)
     doc = prediction.to_dict()
     if sweep is not None:
         doc["sweep"] = sweep.to_dict()
     text = json.dumps(doc, indent=2, allow_nan=False) + "\n"
     written = {}
     with Staging() as stage:
-        written["json"] = out / f"{stem}_predict.json"
+        written["json"] = out / f"{stem}-predict.json"
         stage.path(written["json"]).write_text(text, encoding="utf-8")
-        written["spice"] = out / f"{stem}_equivalent.cir"
+        written["spice"] = out / f"{stem}-equivalent.cir"
         stage.path(written["spice"]).write_text(prediction.spice(), encoding="utf-8")
         if sweep is not None:
-            written["sweep_png"] = out / f"{stem}_sweep.png"
+            written["sweep_png"] = out / f"{stem}-sweep.png"
             plot_sweep(sweep, stage.path(written["sweep_png"]), title=f"{prediction.name}: L, R and Q against frequency", mark_hz=prediction.frequency_hz)
         if field_map:
-            written["field_png"] = out / f"{stem}_field.png"
+            written["field_png"] = out / f"{stem}-field.png"
             plot_field_map(coil, stage.path(written["field_png"]), title=f"{prediction.name}: |B| at 1 A, plane through the centre")
     return written
 
