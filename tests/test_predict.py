@@ -143,7 +143,7 @@ def test_command_line_writes_files(tmp_path, capsys):
     assert len(saved["sweep"]["filament_model"]["frequency_hz"]) >= 3 and len(saved["sweep"]["frequency_hz"]) >= 20
     for png in ("tiny-pad-field.png", "tiny-pad-sweep.png"):
         assert (out / png).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert ".subckt tiny_pad a b" in (out / "tiny_pad_equivalent.cir").read_text()
+    assert ".subckt tiny_pad a b" in (out / "tiny-pad-equivalent.cir").read_text()
 
 
 def test_command_line_bad_frequency_writes_nothing(tmp_path, capsys):
