@@ -53,7 +53,7 @@ import os
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
-from scipy.constants import mu_0 as MU0  # CODATA 2018 value, 1.25663706212e-6 H/m
+from scipy.constants import mu_0 as MU0  # CODATA value shipped by SciPy (about 1.2566370621e-6 H/m)
 
 __all__ = [
     "MU0",
