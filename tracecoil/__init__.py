@@ -15,3 +15,6 @@ from .rules import CheckResult, Finding, RuleSet, check, load_rules
 from .targets import BlockMagnet, Circular, CylinderMagnet, Dipole, Linear, Table, signal
 from .targets.conductive import Plate, plate_signal
 from .targets.coupling import receiver_signal
+from .physics.conductors import Conductors, conductors
+from .physics.field import field, flux_linkage, vector_potential
+from .physics.inductance import ImpedanceResult, InductanceResult, coupling, impedance, inductance, mutual_inductance
