@@ -346,10 +346,27 @@ def _best(values, better):
     return top[0]
 
 
-def _json_value(v):
-    if isinstance(v, float) and not math.isfinite(v):
-        return None
-    return v
+def plain(x):
+    """JSON-ready copy of ``x``: numpy scalars and arrays as Python
+    numbers and lists, non-finite floats as None.
+
+    >>> import numpy as np
+    >>> plain({"a": np.float64(1.5), "b": [float("nan"), np.int64(2)], "c": (True, "x")})
+    {'a': 1.5, 'b': [None, 2], 'c': [True, 'x']}
+    """
+    import numpy as np
+
+    if isinstance(x, dict):
+        return {str(k): plain(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple, np.ndarray)):
+        return [plain(v) for v in x]
+    if isinstance(x, (bool, np.bool_)):
+        return bool(x)
+    if isinstance(x, (int, np.integer)):
+        return int(x)
+    if isinstance(x, (float, np.floating)):
+        return float(x) if math.isfinite(x) else None
+    return x
 
 
 @dataclass
@@ -409,8 +426,8 @@ class Comparison:
         return {
             "temperature_c": self.temperature_c,
             "quantities": [{"key": q.key, "label": q.label, "unit": q.unit, "better": q.better} for q in QUANTITIES],
-            "rows": [{k: _json_value(v) for k, v in r.items()} for r in self.rows],
-            "signals": {n: json.loads(json.dumps(s.summary(), default=float)) for n, s in self.signals.items()},
+            "rows": plain(self.rows),
+            "signals": {n: plain(s.summary()) for n, s in self.signals.items()},
         }
 
     def plot(self, path, *, title: str = "") -> Path:
@@ -559,6 +576,7 @@ __all__ = [
     "design_signal",
     "has_signal",
     "length_margin_mm",
+    "plain",
     "plot_signals",
     "signal_numbers",
 ]
