@@ -1096,7 +1096,6 @@ def pair_energy(x, j, groups, n_groups, *, x2=None, j2=None, groups2=None, n_gro
     import threading
 
     local = threading.local()
-    results = []
 
     def run(chunk):
         buf = getattr(local, "buf", None)
@@ -1119,13 +1118,13 @@ def pair_energy(x, j, groups, n_groups, *, x2=None, j2=None, groups2=None, n_gro
                 dots = np.einsum("pk,pk->p", ja[i0:i1], phi)
                 C[:, gcol] += np.bincount(ga[i0:i1], weights=dots, minlength=n_groups)
             E += C + C.T if (same and j0 != i0) else C
-        results.append(E)
+        return E
 
     chunks = [tasks[k::nthreads] for k in range(nthreads)]
     with _BlasThreads():
         if nthreads == 1:
-            run(tasks)
+            results = [run(tasks)]
         else:
             with ThreadPoolExecutor(max_workers=nthreads) as pool:
-                list(pool.map(run, chunks))
+                results = list(pool.map(run, chunks))  # in chunk order: the same sum on every run
     return np.sum(results, axis=0)
