@@ -18,3 +18,4 @@ from .targets.coupling import receiver_signal
 from .physics.conductors import Conductors, conductors
 from .physics.field import field, flux_linkage, vector_potential
 from .physics.inductance import ImpedanceResult, InductanceResult, coupling, impedance, inductance, mutual_inductance
+from .variants import evaluate, size, sweep, tolerance

@@ -133,8 +133,12 @@ class _BlasThreads:
 
 
 def _threads(threads):
+    """Worker threads for a kernel: the argument, else the environment
+    variable ``TRACECOIL_THREADS`` (process pools set it to 1 in their
+    workers so they do not oversubscribe the cores), else min(CPUs, 4)."""
     if threads is None:
-        threads = min(os.cpu_count() or 1, 4)
+        env = os.environ.get("TRACECOIL_THREADS", "")
+        threads = int(env) if env.isdigit() and int(env) > 0 else min(os.cpu_count() or 1, 4)
     return max(1, int(threads))
 
 

@@ -86,6 +86,13 @@ def chunks(items: list, size: int) -> list[list]:
     return [items[i : i + size] for i in range(0, len(items), size)]
 
 
+def _one_thread_per_worker():
+    """Pool workers already use every core between them: one kernel thread each."""
+    import os
+
+    os.environ["TRACECOIL_THREADS"] = "1"
+
+
 def _mp_context():
     method = "fork" if threading.active_count() == 1 and "fork" in multiprocessing.get_all_start_methods() else "spawn"
     if method == "spawn" and "forkserver" in multiprocessing.get_all_start_methods():
@@ -99,7 +106,7 @@ def _mp_context():
 def _process_pool(fn, task, batches, workers) -> Iterator:
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
-    pool = ProcessPoolExecutor(max_workers=min(workers, max(1, len(batches))), mp_context=_mp_context())
+    pool = ProcessPoolExecutor(max_workers=min(workers, max(1, len(batches))), mp_context=_mp_context(), initializer=_one_thread_per_worker)
     ok = False
     try:
         futures = [pool.submit(fn, task, b) for b in batches]
