@@ -304,7 +304,7 @@ class Report:
         body = [(L["layer"], L["name"], _num(L["turns"]), _num(L["outer_mm"]), _num(L["inner_mm"]), _num(L["trace_length_mm"]),
                  _num(L["copper_area_mm2"]), L["direction"] or "-") for L in s["layers"]]
         pics = self.images.get("geometry", [])
-        return (_images(pics[:1]) + "<h3>Each copper layer</h3>" + _images(pics[1:], min_px=300) + "<h3>Summary</h3>" + _kv_table(rows) + "<h3>Per layer</h3>" + _table(head, body)
+        return (_images(pics[:1]) + "<h3>Each copper layer</h3>" + _images(pics[1:], min_px=380) + "<h3>Summary</h3>" + _kv_table(rows) + "<h3>Per layer</h3>" + _table(head, body)
                 + '<p class="note">Sizes are measured on the generated layout (Mohan et al. 1999 definitions of d_out, d_in and fill ratio).</p>')
 
     def _electrical(self) -> str:
@@ -317,7 +317,7 @@ class Report:
             ("inductance L(f)", _eng(p.inductance_h, "H"), acc["inductance"]),
             ("inductance at low frequency", _eng(p.inductance_dc_h, "H"), acc["inductance"]),
             (f"DC resistance at {p.temperature_c:g} degC", _eng(p.resistance_dc_ohm, "ohm"), acc["resistance_dc"]),
-            ("AC resistance R(f)", _eng(p.resistance_ac_ohm, "ohm"), f"{p.resistance_ac_method}: {acc['resistance_ac']}"),
+            ("AC resistance R(f)", _eng(p.resistance_ac_ohm, "ohm"), acc["resistance_ac"]),
             ("AC resistance, closed-form plate model", _eng(p.resistance_ac_closed_form_ohm, "ohm"), "lower bound: no proximity effect"),
             ("capacitance", _eng(p.capacitance_f, "F"), acc["capacitance"]),
             ("self-resonant frequency", _eng(p.srf_hz, "Hz"), acc["srf"]),
