@@ -14,6 +14,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
+from report_designs import write_designs
+
 from tracecoil.cli import main
 from tracecoil.compare import QUANTITIES, compare, design_signal, plot_signals
 from tracecoil.design import load_design
@@ -24,87 +26,13 @@ from tracecoil.rules import check, load_rules
 from tracecoil.targets import Dipole, Linear, signal
 from tracecoil.targets.conductive import Plate, plate_signal
 
-# Small coils (3 turns) keep predict well under a second each.
-MAGNET = """
-[design]
-name = "pick-a"
-rules = "standard"
-[coil]
-shape = "square"
-outer_mm = 8
-turns = 3
-width_mm = 0.3
-gap_mm = 0.3
-layers = 2
-[board]
-layers = 2
-[target]
-kind = "dipole"
-moment_am2 = [0, 0, 0.05]
-[motion]
-kind = "linear"
-start_mm = [-10, 0, 3]
-direction = [1, 0, 0]
-speed_m_s = 1.0
-distance_mm = 20
-"""
-
-PLATE = """
-[design]
-name = "prox-b"
-rules = "standard"
-[coil]
-shape = "circle"
-outer_mm = 8
-turns = 3
-width_mm = 0.25
-gap_mm = 0.25
-layers = 2
-[board]
-layers = 2
-[target]
-kind = "plate"
-outline_mm = [[-6, -6], [6, -6], [6, 6], [-6, 6]]
-thickness_mm = 0.5
-material = "copper"
-frequency_hz = 1e6
-max_cells = 150
-[motion]
-kind = "linear"
-start_mm = [-10, 0, 1]
-direction = [1, 0, 0]
-speed_m_s = 0.1
-distance_mm = 20
-"""
-
-NARROW = """
-[design]
-name = "narrow-c"
-rules = "standard"
-[coil]
-shape = "square"
-outer_mm = 8
-turns = 3
-width_mm = 0.12
-gap_mm = 0.3
-layers = 2
-[board]
-layers = 2
-"""
-
 SAMPLES = 41
 FREQ = 1e6
 
 
 @pytest.fixture(scope="module")
 def files(tmp_path_factory):
-    d = tmp_path_factory.mktemp("designs")
-    out = {}
-    for key, text in (("magnet", MAGNET), ("plate", PLATE), ("narrow", NARROW)):
-        p = d / f"{key}.toml"
-        p.write_text(text)
-        out[key] = p
-    return out
+    return write_designs(tmp_path_factory.mktemp("designs"))
 
 
 @pytest.fixture(scope="module")

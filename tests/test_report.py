@@ -15,6 +15,7 @@ from html.parser import HTMLParser
 
 import pytest
 from numpy.testing import assert_allclose
+from report_designs import write_designs
 
 from tracecoil.cli import main
 from tracecoil.design import load_design
@@ -26,46 +27,6 @@ from tracecoil.report.html import DATA_ID, SECTIONS
 from tracecoil.rules import check, load_rules
 from tracecoil.targets import Dipole, Linear, signal
 from tracecoil.variants import sweep
-
-MAGNET = """
-[design]
-name = "rep-a"
-description = "three-turn test coil under a passing dipole"
-rules = "standard"
-[coil]
-shape = "square"
-outer_mm = 8
-turns = 3
-width_mm = 0.3
-gap_mm = 0.3
-layers = 2
-[board]
-layers = 2
-[target]
-kind = "dipole"
-moment_am2 = [0, 0, 0.05]
-[motion]
-kind = "linear"
-start_mm = [-10, 0, 3]
-direction = [1, 0, 0]
-speed_m_s = 1.0
-distance_mm = 20
-"""
-
-NARROW = """
-[design]
-name = "rep-narrow"
-rules = "standard"
-[coil]
-shape = "square"
-outer_mm = 8
-turns = 2
-width_mm = 0.12
-gap_mm = 0.3
-layers = 2
-[board]
-layers = 2
-"""
 
 FREQ = 1e6
 SAMPLES = 41
@@ -123,13 +84,7 @@ def png_size(src: str) -> tuple[int, int]:
 
 @pytest.fixture(scope="module")
 def files(tmp_path_factory):
-    d = tmp_path_factory.mktemp("designs")
-    out = {}
-    for key, text in (("magnet", MAGNET), ("narrow", NARROW)):
-        p = d / f"{key}.toml"
-        p.write_text(text)
-        out[key] = p
-    return out
+    return write_designs(tmp_path_factory.mktemp("designs"))
 
 
 @pytest.fixture(scope="module")
@@ -259,7 +214,7 @@ def test_bad_input(tmp_path, files):
 def test_command(tmp_path, files, capsys):
     rc = main(["report", str(files["narrow"]), "--out", str(tmp_path), "--points", "1", "--freq", "500k", "--no-progress"])
     assert rc == 0
-    path = tmp_path / "rep-narrow-report.html"
+    path = tmp_path / "narrow-c-report.html"
     assert f"wrote {path}" in capsys.readouterr().out
     data = json.loads(parse(path).data_json)
     assert data["prediction"]["frequency_hz"] == 500e3
