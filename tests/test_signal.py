@@ -266,4 +266,4 @@ def test_cli_needs_target_and_motion(tmp_path, capsys):
     f = tmp_path / "plain.toml"
     f.write_text('[coil]\nshape = "square"\nouter_mm = 10\nturns = 3\nwidth_mm = 0.2\ngap_mm = 0.2\n')
     assert main(["signal", str(f)]) == 2
-    assert "no [target] table" in capsys.readouterr().err
+    assert "no [target]" in capsys.readouterr().err

@@ -346,3 +346,17 @@ def test_sweep_command(tmp_path, capsys):
     assert "already exists" in capsys.readouterr().err
     assert main(["sweep", *args, "--resume"]) == 0
     assert len(csv_path.read_text().splitlines()) == 5
+
+
+def test_peak_emf_metric_equals_the_signal_computed_directly():
+    # the metric must build the target with its table's options, exactly as
+    # `tracecoil signal` does (regression: it once took the (target,
+    # options) pair for the target)
+    from tracecoil import load_design
+    from tracecoil.compare import design_signal
+    from tracecoil.templates import template_path
+    from tracecoil.variants import evaluate
+
+    design = load_design(template_path("hub-pickup"))
+    direct = design_signal(design).peak_emf_v
+    assert evaluate(design, ["peak_emf"])["peak_emf_v"] == pytest.approx(direct, rel=1e-12)

@@ -31,34 +31,12 @@ def add_parser(sub):
 
 def run(args) -> int:
     import json
-    from pathlib import Path
 
     from .cmd_build import load_design_arg
-    from .errors import SpecError
-    from .generators import coil_from_design
-    from .targets.motion import motion_from_table
-    from .targets.signal import signal, target_from_table
+    from .compare import design_signal
 
     design = load_design_arg(args.design)
-    tables = design.tables
-    for t in ("target", "motion"):
-        if t not in tables:
-            raise SpecError(f"{design.name}: the design file has no [{t}] table; 'tracecoil signal' needs [target] "
-                            "(e.g. kind = 'cylinder', diameter_mm, length_mm, grade) and [motion] "
-                            "(e.g. kind = 'linear', start_mm, direction, speed_m_s, distance_mm)")
-    base = Path(design.source).parent if design.source else None
-    try:
-        target, options = target_from_table(tables["target"], base_dir=base)
-        motion = motion_from_table(tables["motion"], base_dir=base)
-        if "receiver" in tables:
-            from .targets.coupling import receiver_from_table
-
-            receiver, rx_options = receiver_from_table(tables["receiver"], board=design.board)
-            options.update(receiver=receiver, **rx_options)
-    except SpecError as e:
-        raise SpecError(f"{design.name}: {e}") from None
-    coil = coil_from_design(design)
-    result = signal(coil, target, motion, load_ohm=args.load, samples=args.samples, name=design.name, **options)
+    result = design_signal(design, samples=args.samples, load_ohm=args.load, progress=True)
     written = result.write(args.out, f"{design.name}-signal")
     if args.json:
         print(json.dumps(result.to_dict(), allow_nan=False))

@@ -127,7 +127,7 @@ def has_signal(design) -> bool:
     return "target" in t and "motion" in t
 
 
-def design_signal(design, *, coil=None, freq_hz=None, samples=None, progress=False):
+def design_signal(design, *, coil=None, freq_hz=None, samples=None, load_ohm=None, progress=False):
     """The signal of a design's ``[target]`` moving as its ``[motion]`` says
     (with ``[receiver]`` when present), as ``tracecoil signal`` computes it.
 
@@ -138,7 +138,10 @@ def design_signal(design, *, coil=None, freq_hz=None, samples=None, progress=Fal
         The design's coil, when already built.
     freq_hz : float, optional
         Excitation for a conductive target whose table gives neither
-        ``frequency_hz`` nor ``tank_capacitance_f`` (default 1 MHz).
+        ``frequency_hz`` nor ``tank_capacitance_f`` (without it such a
+        target is an error that says so).
+    load_ohm : float, optional
+        Magnets: load resistance across the terminals.
     samples : int, optional
         Time samples (magnets) or poses (plates); default automatic.
     progress : bool
@@ -178,9 +181,14 @@ def design_signal(design, *, coil=None, freq_hz=None, samples=None, progress=Fal
             options.update(receiver=receiver, **rx_options)
     except SpecError as e:
         raise SpecError(f"{design.name}: {e}") from None
-    if not isinstance(target, Magnet):
-        if "freq_hz" not in options and "tank_capacitance_f" not in options:
-            options["freq_hz"] = DEFAULT_FREQ_HZ if freq_hz is None else float(freq_hz)
+    if isinstance(target, Magnet):
+        if load_ohm is not None:
+            options["load_ohm"] = load_ohm
+    else:
+        if "freq_hz" not in options and "tank_capacitance_f" not in options and freq_hz is not None:
+            options["freq_hz"] = float(freq_hz)
+        if load_ohm is not None:
+            options["load_ohm"] = load_ohm  # plate_signal rejects it with a clear message
         options["progress"] = bool(progress)
     coil = coil_from_design(design) if coil is None else coil
     return signal(coil, target, motion, samples=samples, name=design.name, **options)

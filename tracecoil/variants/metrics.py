@@ -318,11 +318,11 @@ def _peak_emf(ev):
     from ..targets.signal import signal, target_from_table
 
     t = ev.design.tables
-    target = target_from_table(t["target"], base_dir=_base_dir(ev.design))
+    target, options = target_from_table(t["target"], base_dir=_base_dir(ev.design))
     motion = motion_from_table(t["motion"], base_dir=_base_dir(ev.design))
     if not isinstance(target, Magnet):
         raise SpecError(f"peak_emf needs a magnet [target]; got {type(target).__name__} (for a conductive plate use the delta_l metric)")
-    return float(signal(ev.coil, target, motion).peak_emf_v)
+    return float(signal(ev.coil, target, motion, **options).peak_emf_v)
 
 
 @metric(
