@@ -197,10 +197,10 @@ def test_bad_input(tmp_path, files):
 
 
 def test_command(tmp_path, files, capsys):
-    rc = main(["compare", str(files["narrow"]), "hexagon-ldc", "--freq", "250k", "--signal", "off", "--out", str(tmp_path), "--no-progress"])
+    rc = main(["compare", str(files["narrow"]), "hexagon-return", "--freq", "250k", "--signal", "off", "--out", str(tmp_path), "--no-progress"])
     out = capsys.readouterr().out
     assert rc == 0
-    assert "narrow-c" in out and "hexagon-ldc" in out and "frequency f (kHz)" in out
+    assert "narrow-c" in out and "hexagon-return" in out and "frequency f (kHz)" in out
     doc = json.loads((tmp_path / "compare.json").read_text())
     assert [r["freq_hz"] for r in doc["rows"]] == [250e3, 250e3]
     assert not math.isnan(doc["rows"][1]["inductance_h"])

@@ -340,7 +340,7 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
     cautions = []
 
     l_model = core_inductance(coil)
-    l_dc = float(l_model.inductance_h)
+    l_static = float(l_model.inductance_h)
     r_dc = _res.dc_resistance(coil, temperature_c=t)
     r_closed = _res.ac_resistance(coil, f, temperature_c=t)
     (l_f,), (r_f,) = core_impedance(coil, [f], temperature_c=t)
@@ -412,7 +412,7 @@ def predict(coil, *, freq_hz=1e6, temperature_c=20.0, tank_capacitance_f=None, c
         frequency_hz=f,
         temperature_c=t,
         inductance_h=float(l_f),
-        inductance_dc_h=float(l_dc),
+        inductance_dc_h=float(l_static),
         resistance_dc_ohm=float(r_dc),
         resistance_ac_ohm=float(r_f),
         resistance_ac_method=method,

@@ -1030,7 +1030,7 @@ def impedance(coil, freq_hz, *, filaments=DEFAULT_FILAMENTS, cross_section=None,
         if not (1 <= nw <= 32 and 1 <= nt <= 16):
             raise SpecError(f"cross_section must be within (1..32, 1..16); got {cross_section!r}")
     Mdc, labels, _, near = _partial_parts(cd if isinstance(coil, Conductors) else coil, filaments=filaments)
-    L_dc = float(Mdc.sum())
+    L_static = float(Mdc.sum())
     sb = _subdivide(cd, nw, nt)
     n, N = len(cd), len(sb.owner)
     R_sub = rho * cd.length_m[sb.owner] / sb.area
@@ -1097,18 +1097,18 @@ def impedance(coil, freq_hz, *, filaments=DEFAULT_FILAMENTS, cross_section=None,
         if info != 0:
             raise SpecError(f"impedance: the current distribution did not converge at {fk:g} Hz (GMRES info {info})")
         _, V = block_solve(-(Cw @ I), fr.astype(complex))
-        Z.append(complex(np.sum(fr * V)) + 1j * w * (L_dc - L_near_uniform))
+        Z.append(complex(np.sum(fr * V)) + 1j * w * (L_static - L_near_uniform))
         iters.append(count[0])
         kept.append(I)
     Z = np.array(Z)
     with np.errstate(divide="ignore", invalid="ignore"):
-        L = np.where(f > 0, Z.imag / (2 * np.pi * f), L_dc)
+        L = np.where(f > 0, Z.imag / (2 * np.pi * f), L_static)
     return ImpedanceResult(
         freq_hz=f,
         impedance_ohm=Z,
         inductance_h=L,
         resistance_ohm=Z.real.copy(),
-        inductance_dc_h=L_dc,
+        inductance_dc_h=L_static,
         resistance_dc_ohm=R_dc,
         cross_section=(nw, nt),
         layers=labels,
