@@ -207,3 +207,34 @@ def test_overlap_with_the_copper_region():
     assert clear.tolist() == [False, True]
     dip = Dipole(moment_am2=(0, 0, 1))
     assert overlapping_poses(coil, dip, np.array([[0, 0, -0.01], [0, 0, 0.01]]), np.broadcast_to(np.eye(3), (2, 3, 3))).tolist() == [True, False]
+
+
+def test_uniform_field_switched_through_n_turns():
+    """Faraday relation, common practice: a uniform field B switched on
+    linearly in dt through N turns of area A gives EMF = -N B A / dt.
+
+    The coil is N series square turns of side 10 mm on alternate layers,
+    joined by vias (a custom path), so every turn encloses the same area.
+    The external field's vector potential is A = B/2 (-y, x, 0).
+    """
+    from tracecoil import custom_coil
+    from tracecoil.physics.field import flux_linkage
+
+    n_turns, side_mm, b_t, dt_s = 5, 10.0, 0.02, 1e-3
+    square = [[0, 0], [side_mm, 0], [side_mm, side_mm], [0, side_mm], [0, 0]]
+    paths = [(1 + (k % 2), square) for k in range(n_turns)]
+    coil = custom_coil(paths, width_mm=0.3, board={"layers": 2})
+
+    def uniform(b):
+        return lambda p: 0.5 * b * np.stack([-p[:, 1], p[:, 0], np.zeros(len(p))], axis=1)
+
+    t = np.linspace(0.0, dt_s, 11)
+    lam = np.array([flux_linkage(coil, uniform(b_t * ti / dt_s)) for ti in t])
+    emf = -np.gradient(lam, t)
+    area_m2 = (side_mm * 1e-3) ** 2
+    # the potential is linear, so the quadrature is exact: only rounding remains
+    assert_allclose(lam[-1], n_turns * b_t * area_m2, rtol=1e-12)
+    assert_allclose(emf, -n_turns * b_t * area_m2 / dt_s, rtol=1e-9)
+    # and no change, no EMF (to rounding: 1e-12 of the switched EMF)
+    still = np.array([flux_linkage(coil, uniform(b_t)) for _ in t])
+    assert_allclose(np.gradient(still, t), 0.0, atol=1e-12 * n_turns * b_t * area_m2 / dt_s)
