@@ -469,8 +469,8 @@ def path_network(coil, cond: Conductors | None = None) -> PathNetwork:
             ei.append(nodes.setdefault(("via", vi, la), len(nodes)))
             ej.append(nodes.setdefault(("via", vi, lb), len(nodes)))
             step.append(-1)
-            blen.append(abs(st.z_mm(la) - st.z_mm(lb)) * 1e-3)
-            bdrill.append(v.drill_mm * 1e-3)
+            blen.append(abs(st.z_mm(la) - st.z_mm(lb)) * MM)
+            bdrill.append(v.drill_mm * MM)
     term = {t.name: t for t in coil.terminals}
     if "A" not in term or "B" not in term:
         raise GeometryError(f"the coil needs terminals 'A' and 'B'; got {sorted(term)}")
