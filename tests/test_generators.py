@@ -5,6 +5,7 @@ parallel lines and the shoelace signed area.
 """
 
 import math
+import os
 
 import numpy as np
 import pytest
@@ -252,7 +253,7 @@ designs = st.fixed_dictionaries(
 )
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=int(os.environ.get("TRACECOIL_EXAMPLES", 40)), deadline=None, derandomize=True, database=None, suppress_health_check=[HealthCheck.too_slow])
 @given(designs)
 def test_random_designs_are_sound(d):
     turns_frac = d.pop("turns_frac")

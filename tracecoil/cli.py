@@ -51,6 +51,11 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("tracecoil: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # output piped into a reader that stopped early (e.g. head)
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 141
 
 
 if __name__ == "__main__":  # pragma: no cover
