@@ -301,3 +301,15 @@ def test_custom_paths_must_meet():
         custom_coil([(1, [[0, 0], [5, 0]]), (2, [[5, 1], [0, 1]])], width_mm=0.2)
     with pytest.raises(SpecError, match="at least 2 points"):
         custom_coil([(1, [[0, 0]])], width_mm=0.2)
+
+
+def test_start_just_short_of_a_corner_keeps_the_direction():
+    # found by the property test: a start 0.6 degrees before a rectangle's
+    # corner lies beyond the next side (a pitch/4 further in); the winding
+    # must still run counter-clockwise for the half turn asked for
+    c = spiral(shape="rectangle", outer_mm=8, outer_height_mm=4.8, width_mm=0.25, gap_mm=0.125, turns=0.5, start_angle_deg=149)
+    check_circulation(c)
+    pts = c.winding_traces()[0].points_mm
+    phi = np.unwrap(np.arctan2(pts[:, 1], pts[:, 0]))
+    assert_allclose(phi[-1] - phi[0], np.pi, rtol=1e-9)
+    assert np.all(np.diff(phi) > 0)

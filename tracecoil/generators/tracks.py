@@ -222,14 +222,23 @@ def inward_spiral(outline: Outline, *, start: float, turns: float, sense: int, p
             raise GeometryError("spiral geometry degenerated (ray parallel to a side); try other turns or start_angle_deg")
         return u * (d / c)
 
-    pts = [ray_hit(start, 0)]
-    prev_angle = start
-    travelled = 0.0
-    k = 0
-    while True:
+    def corner_at(k):
         n1, d1 = line(k)
         n2, d2 = line(k + 1)
-        corner = np.linalg.solve(np.stack([n1, n2]), np.array([d1, d2]))
+        return np.linalg.solve(np.stack([n1, n2]), np.array([d1, d2]))
+
+    # A start just short of a corner can lie beyond the next side, which
+    # sits pitch/N further in: that corner is then behind the start. Begin
+    # on the next side instead (its start point lies inside the outline).
+    k = 0
+    c0 = corner_at(0)
+    if ((math.atan2(c0[1], c0[0]) - start) * sense) % (2 * np.pi) > np.pi:
+        k = 1
+    pts = [ray_hit(start, k)]
+    prev_angle = start
+    travelled = 0.0
+    while True:
+        corner = corner_at(k)
         ang = math.atan2(corner[1], corner[0])
         delta = ((ang - prev_angle) * sense) % (2 * np.pi)
         if travelled + delta >= total - 1e-12:
