@@ -313,3 +313,12 @@ def test_start_just_short_of_a_corner_keeps_the_direction():
     phi = np.unwrap(np.arctan2(pts[:, 1], pts[:, 0]))
     assert_allclose(phi[-1] - phi[0], np.pi, rtol=1e-9)
     assert np.all(np.diff(phi) > 0)
+
+
+def test_outer_pads_clear_every_layer_when_a_winding_starts_inside():
+    # found by the property test: a start just short of a corner begins on
+    # the next side, a quarter pitch inside the outer edge; terminal A must
+    # still clear the other layer's outermost copper by the gap
+    c = spiral(shape="rectangle", outer_mm=8, outer_height_mm=4.8, width_mm=0.25, gap_mm=0.140625, turns=3, layers=2, direction="cw", start_angle_deg=150, board={"layers": 2})
+    check_holes_clear(c)
+    check_terminals_outside(c)

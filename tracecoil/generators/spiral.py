@@ -204,7 +204,15 @@ class _Assembler:
         return p, n
 
     def _outer_hole(self, p, n, pad):
-        return p + n * (self.spec.width_mm / 2 + self.spec.gap_mm + pad / 2)
+        """Hole on the outward normal ``n`` from the winding end ``p``, just
+        clear of the outer edge of every layer: its projection on ``n`` lies
+        ``gap + pad/2`` beyond the edge outline's supporting line, so it is
+        at least that far from the (convex) outline."""
+        if self.edge.normals is None:
+            support = float(self.edge.distances[0])
+        else:
+            support = float((self.edge.vertices() @ n).max())
+        return p + n * (support - float(n @ p) + self.spec.gap_mm + pad / 2)
 
     def _inner_hole(self, p):
         """Nearest point of the hollow region to ``p``."""
