@@ -56,6 +56,10 @@ def main(argv=None) -> int:
 
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 141
+    except OSError as e:  # a file or folder that cannot be read or written
+        where = f": {e.filename}" if getattr(e, "filename", None) else ""
+        print(f"tracecoil {args.command}: error: {e.strerror or e}{where}", file=sys.stderr)
+        return 2
 
 
 if __name__ == "__main__":  # pragma: no cover
