@@ -355,26 +355,15 @@ def _best(values, better):
 
 
 def plain(x):
-    """JSON-ready copy of ``x``: numpy scalars and arrays as Python
-    numbers and lists, non-finite floats as None.
+    """JSON-ready copy of ``x`` (see :func:`tracecoil.export.atomic.jsonable`).
 
     >>> import numpy as np
     >>> plain({"a": np.float64(1.5), "b": [float("nan"), np.int64(2)], "c": (True, "x")})
     {'a': 1.5, 'b': [None, 2], 'c': [True, 'x']}
     """
-    import numpy as np
+    from .export.atomic import jsonable
 
-    if isinstance(x, dict):
-        return {str(k): plain(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple, np.ndarray)):
-        return [plain(v) for v in x]
-    if isinstance(x, (bool, np.bool_)):
-        return bool(x)
-    if isinstance(x, (int, np.integer)):
-        return int(x)
-    if isinstance(x, (float, np.floating)):
-        return float(x) if math.isfinite(x) else None
-    return x
+    return jsonable(x)
 
 
 @dataclass

@@ -214,3 +214,32 @@ def write_json(target, obj, *, indent: int = 2) -> Path:
     """
     text = json.dumps(obj, indent=indent, allow_nan=False) + "\n"
     return write_text(target, text)
+
+
+def jsonable(x):
+    """JSON-ready copy of ``x``: dataclasses as dicts, numpy scalars and
+    arrays and tuples as Python numbers and lists, non-finite floats as None
+    (JSON has no NaN or infinity).
+
+    >>> import numpy as np
+    >>> jsonable({"a": np.float64(1.5), "b": [float("nan"), np.int64(2)], "c": (True, "x")})
+    {'a': 1.5, 'b': [None, 2], 'c': [True, 'x']}
+    """
+    import dataclasses
+    import math
+
+    import numpy as np
+
+    if dataclasses.is_dataclass(x) and not isinstance(x, type):
+        return {f.name: jsonable(getattr(x, f.name)) for f in dataclasses.fields(x)}
+    if isinstance(x, dict):
+        return {str(k): jsonable(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple, np.ndarray)):
+        return [jsonable(v) for v in x]
+    if isinstance(x, (bool, np.bool_)):
+        return bool(x)
+    if isinstance(x, (int, np.integer)):
+        return int(x)
+    if isinstance(x, (float, np.floating)):
+        return float(x) if math.isfinite(x) else None
+    return x

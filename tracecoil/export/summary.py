@@ -38,6 +38,7 @@ import numpy as np
 
 from ..layout import Coil, polyline_signed_area
 from ..outline import DEFAULT_TOLERANCE_MM, outlines as make_outlines
+from .atomic import jsonable
 
 
 def winding_turns(points_mm: np.ndarray) -> float:
@@ -120,24 +121,6 @@ def fill_ratio(d_out: float, d_in: float) -> float:
     0.3333333333333333
     """
     return float((d_out - d_in) / (d_out + d_in))
-
-
-def _jsonable(x):
-    """Plain Python values (float, int, str, list, dict, None) from numpy
-    scalars, arrays, tuples and dataclasses."""
-    if dataclasses.is_dataclass(x) and not isinstance(x, type):
-        return {f.name: _jsonable(getattr(x, f.name)) for f in dataclasses.fields(x)}
-    if isinstance(x, dict):
-        return {str(k): _jsonable(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple, np.ndarray)):
-        return [_jsonable(v) for v in x]
-    if isinstance(x, (bool, np.bool_)):
-        return bool(x)
-    if isinstance(x, (int, np.integer)):
-        return int(x)
-    if isinstance(x, (float, np.floating)):
-        return float(x)
-    return x
 
 
 def _copper_bounds(outlines) -> list | None:
@@ -233,4 +216,4 @@ def summary(coil: Coil, *, outlines=None) -> dict:
         "tolerance_mm": outlines.tolerance_mm,
         "spec": coil.spec if dataclasses.is_dataclass(coil.spec) else None,
     }
-    return _jsonable(result)
+    return jsonable(result)
