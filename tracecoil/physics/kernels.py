@@ -180,6 +180,16 @@ class _Buffers:
         return out
 
 
+def _segment_inputs(points, starts, ends, currents):
+    """Arrays shared by the segment kernels: points (k, 3), starts a (m, 3),
+    segment vectors L (m, 3), |L|^2 (m,), currents (m,), zeroed output (k, 3)."""
+    points = np.asarray(points, dtype=float)
+    a = np.asarray(starts, dtype=float)
+    L = np.asarray(ends, dtype=float) - a
+    cur = np.broadcast_to(np.asarray(currents, dtype=float), (len(a),))
+    return points, a, L, np.einsum("ij,ij->i", L, L), cur, np.zeros((len(points), 3))
+
+
 def segment_field(points, starts, ends, currents, *, block=_BLOCK, threads=None):
     """Magnetic flux density of straight current segments (Biot-Savart).
 
@@ -232,15 +242,10 @@ def segment_field(points, starts, ends, currents, *, block=_BLOCK, threads=None)
     >>> round(float(B[0, 2] / (2 * np.sqrt(2) * MU0 / (np.pi * 2))), 12)
     1.0
     """
-    points = np.asarray(points, dtype=float)
-    a = np.asarray(starts, dtype=float)
-    L = np.asarray(ends, dtype=float) - a
-    cur = np.broadcast_to(np.asarray(currents, dtype=float), (len(a),))
-    k, m = len(points), len(a)
-    out = np.zeros((k, 3))
-    if k == 0 or m == 0:
+    points, a, L, L2, cur, out = _segment_inputs(points, starts, ends, currents)
+    if len(points) == 0 or len(a) == 0:
         return out
-    L2 = np.einsum("ij,ij->i", L, L)
+    k, m = len(points), len(a)
     thr = ON_LINE_REL2 * L2
     IL = (L * cur[:, None]) * K_MU  # current-weighted segment vectors
     pt_chunk, seg_chunk = _tiles(k, m, block)
@@ -372,15 +377,10 @@ def segment_potential(points, starts, ends, currents, *, block=_BLOCK, threads=N
     >>> round(float(A[0, 2] / (MU0 / (2 * np.pi) * np.log(2 * 50 / 0.001))), 6)
     1.0
     """
-    points = np.asarray(points, dtype=float)
-    a = np.asarray(starts, dtype=float)
-    L = np.asarray(ends, dtype=float) - a
-    cur = np.broadcast_to(np.asarray(currents, dtype=float), (len(a),))
-    k, m = len(points), len(a)
-    out = np.zeros((k, 3))
-    if k == 0 or m == 0:
+    points, a, L, L2, cur, out = _segment_inputs(points, starts, ends, currents)
+    if len(points) == 0 or len(a) == 0:
         return out
-    L2 = np.einsum("ij,ij->i", L, L)
+    k, m = len(points), len(a)
     ln_ = np.sqrt(L2)
     U = L / ln_[:, None] * (cur * K_MU)[:, None]
     pt_chunk, seg_chunk = _tiles(k, m, block)
